@@ -1,0 +1,77 @@
+//! Built-in rules, one file each, grouped by family.
+//!
+//! Each rule file holds its metadata (`META`), its documentation with the
+//! fixed headings (*What it checks*, *Why it matters*, *How it is
+//! computed*, *Example*, *Fix*), a detector that returns data and a thin
+//! `check` that turns the data into findings.
+
+pub mod structure;
+
+use crate::analysis::Analysis;
+use crate::finding::{Finding, Severity};
+use crate::graph::CircuitGraph;
+use crate::model::Circuit;
+use crate::settings::Settings;
+
+pub struct RuleMeta {
+    pub id: &'static str,
+    pub family: &'static str,
+    pub severity: Severity,
+    /// One line, for `armature rules`.
+    pub summary: &'static str,
+    /// Markdown with the fixed headings.
+    pub docs: &'static str,
+    /// Whether the fault can burn or hurt (explain adds the caution).
+    pub hazard: bool,
+}
+
+pub struct Ctx<'a> {
+    pub circuit: &'a Circuit,
+    pub graph: &'a CircuitGraph,
+    pub analysis: &'a Analysis,
+    pub settings: &'a Settings,
+}
+
+pub struct Rule {
+    pub meta: &'static RuleMeta,
+    pub check: fn(&Ctx) -> Vec<Finding>,
+}
+
+/// Every built-in rule, in a stable order.
+pub fn registry() -> Vec<Rule> {
+    structure::rules()
+}
+
+pub fn find(id: &str) -> Option<Rule> {
+    registry().into_iter().find(|r| r.meta.id == id)
+}
+
+/// The headings every rule's documentation must have.
+pub const DOC_HEADINGS: &[&str] = &[
+    "## What it checks",
+    "## Why it matters",
+    "## How it is computed",
+    "## Example",
+    "## Fix",
+];
+
+/// A new finding for a rule, at its default severity.
+pub fn finding(meta: &RuleMeta, ctx: &Ctx, span: crate::source::Span, message: String) -> Finding {
+    Finding::new(meta.id, meta.severity, &ctx.circuit.file, span, message)
+}
+
+/// Run every built-in rule.
+pub fn run_all(ctx: &Ctx) -> Vec<Finding> {
+    let mut out = Vec::new();
+    for r in registry() {
+        if ctx
+            .settings
+            .severity_of(r.meta.id, r.meta.severity)
+            .is_none()
+        {
+            continue;
+        }
+        out.extend((r.check)(ctx));
+    }
+    out
+}

@@ -1,0 +1,379 @@
+//! The command line: a thin layer over the library.
+
+use crate::finding::{Finding, Severity};
+use crate::model::library::LibraryCache;
+use crate::report::{self, Format};
+use crate::{FileResult, Options};
+use clap::{Args, Parser, Subcommand, ValueEnum};
+use rayon::prelude::*;
+use std::io::{IsTerminal, Write};
+use std::path::{Path, PathBuf};
+
+#[derive(Parser, Debug)]
+#[command(
+    name = "armature",
+    version,
+    about = "Design-rule checker for motor, solenoid and relay drive circuits described in .drive netlists"
+)]
+pub struct Cli {
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+#[derive(Subcommand, Debug)]
+pub enum Command {
+    /// Check netlists (files or folders; folders: every *.drive below, sorted)
+    Check(CheckArgs),
+    /// Explain a rule: what it checks, why, the formula, a bad and a good example
+    Explain {
+        /// Rule id, for example `freewheel-missing`
+        rule: String,
+        #[command(flatten)]
+        common: CommonArgs,
+    },
+    /// List every built-in and loaded rule
+    Rules {
+        #[command(flatten)]
+        common: CommonArgs,
+    },
+    /// Print the computed quantities of every part of a netlist
+    Facts {
+        path: PathBuf,
+        #[arg(long, value_enum, default_value_t = FactsFormat::Human)]
+        format: FactsFormat,
+        #[command(flatten)]
+        common: CommonArgs,
+    },
+}
+
+#[derive(Args, Debug, Default, Clone)]
+pub struct CommonArgs {
+    /// Team rule file (repeatable), added to those of the configuration
+    #[arg(long = "rules", value_name = "FILE")]
+    pub rules: Vec<PathBuf>,
+    /// Parts library (repeatable), added to the netlist's `library` lines
+    #[arg(long = "library", value_name = "FILE")]
+    pub library: Vec<PathBuf>,
+    /// Use this configuration file instead of discovering armature.yaml
+    #[arg(long, value_name = "FILE")]
+    pub config: Option<PathBuf>,
+}
+
+#[derive(Args, Debug)]
+pub struct CheckArgs {
+    /// Files or folders to check (default: the current folder)
+    pub paths: Vec<PathBuf>,
+    #[arg(long, value_enum, default_value_t = FormatArg::Human)]
+    pub format: FormatArg,
+    /// The level that makes the exit code 1
+    #[arg(long = "fail-on", value_enum)]
+    pub fail_on: Option<FailOn>,
+    /// Show at most N findings in human output (the summary counts all)
+    #[arg(long = "max-findings", value_name = "N")]
+    pub max_findings: Option<usize>,
+    /// Colour in human output
+    #[arg(long, value_enum, default_value_t = ColorArg::Auto)]
+    pub color: ColorArg,
+    #[command(flatten)]
+    pub common: CommonArgs,
+}
+
+#[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]
+pub enum FormatArg {
+    Human,
+    Compact,
+    Json,
+    Sarif,
+}
+
+#[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]
+pub enum FactsFormat {
+    Human,
+    Json,
+}
+
+#[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]
+pub enum FailOn {
+    Error,
+    Warning,
+}
+
+#[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]
+pub enum ColorArg {
+    Auto,
+    Always,
+    Never,
+}
+
+/// Run the command line; returns the exit code.
+pub fn run(args: Vec<String>) -> i32 {
+    let cli = match Cli::try_parse_from(args) {
+        Ok(c) => c,
+        Err(e) => {
+            let code = if e.use_stderr() { 2 } else { 0 };
+            let _ = e.print();
+            return code;
+        }
+    };
+    match cli.command {
+        Command::Check(a) => check(a),
+        Command::Explain { rule, common } => explain(&rule, &common),
+        Command::Rules { common } => rules(&common),
+        Command::Facts {
+            path,
+            format,
+            common,
+        } => facts(&path, format, &common),
+    }
+}
+
+/// Every `*.drive` file below a folder, sorted.
+fn collect(path: &Path, out: &mut Vec<PathBuf>) -> std::io::Result<()> {
+    let mut entries: Vec<PathBuf> = std::fs::read_dir(path)?
+        .filter_map(|e| e.ok().map(|e| e.path()))
+        .collect();
+    entries.sort();
+    for p in entries {
+        if p.is_dir() {
+            collect(&p, out)?;
+        } else if p.extension().is_some_and(|e| e == "drive") {
+            out.push(p);
+        }
+    }
+    Ok(())
+}
+
+fn base_options(common: &CommonArgs) -> Options {
+    Options {
+        libraries: common
+            .library
+            .iter()
+            .map(|p| (p.clone(), crate::shown_path(p)))
+            .collect(),
+        settings: crate::settings::Settings::default(),
+    }
+}
+
+fn check(a: CheckArgs) -> i32 {
+    let paths = if a.paths.is_empty() {
+        vec![PathBuf::from(".")]
+    } else {
+        a.paths.clone()
+    };
+    let mut files = Vec::new();
+    let mut missing: Vec<FileResult> = Vec::new();
+    for p in &paths {
+        if p.is_dir() {
+            if let Err(e) = collect(p, &mut files) {
+                missing.push(error_result(p, &format!("cannot read folder: {e}")));
+            }
+        } else if p.exists() {
+            files.push(p.clone());
+        } else {
+            missing.push(error_result(p, "no such file or folder"));
+        }
+    }
+    let opts = base_options(&a.common);
+    let cache = LibraryCache::default();
+    let mut results: Vec<FileResult> = files
+        .par_iter()
+        .map(|p| crate::check_path(p, &opts, &cache))
+        .collect();
+    results.extend(missing);
+    let fail_on = match a.fail_on {
+        Some(FailOn::Warning) => Severity::Warning,
+        Some(FailOn::Error) => Severity::Error,
+        None => opts.settings.fail_on,
+    };
+    let format = match a.format {
+        FormatArg::Human => Format::Human,
+        FormatArg::Compact => Format::Compact,
+        FormatArg::Json => Format::Json,
+        FormatArg::Sarif => Format::Sarif,
+    };
+    let color = match a.color {
+        ColorArg::Always => true,
+        ColorArg::Never => false,
+        ColorArg::Auto => {
+            std::env::var_os("NO_COLOR").is_none_or(|v| v.is_empty())
+                && std::io::stdout().is_terminal()
+        }
+    };
+    let stdout = std::io::stdout();
+    let mut out = std::io::BufWriter::new(stdout.lock());
+    let _ = emit(&mut out, &results, format, color, a.max_findings);
+    let _ = out.flush();
+    crate::exit_code(&results, fail_on)
+}
+
+fn error_result(p: &Path, msg: &str) -> FileResult {
+    let shown = crate::shown_path(p);
+    let file = crate::source::SourceFile::new(shown.clone(), p, String::new());
+    FileResult {
+        findings: vec![Finding::input(
+            "file-error",
+            &file,
+            crate::source::Span::new(0, 0),
+            format!("`{shown}`: {msg}"),
+        )],
+        file,
+        suppressed: 0,
+        settings: crate::settings::Settings::default(),
+    }
+}
+
+pub fn emit(
+    out: &mut dyn Write,
+    results: &[FileResult],
+    format: Format,
+    color: bool,
+    max: Option<usize>,
+) -> std::io::Result<()> {
+    let all: Vec<&Finding> = results.iter().flat_map(|r| r.findings.iter()).collect();
+    let suppressed: usize = results.iter().map(|r| r.suppressed).sum();
+    match format {
+        Format::Human => {
+            let r = report::human::Renderer::new(color);
+            let limit = max.unwrap_or(usize::MAX);
+            for f in all.iter().take(limit) {
+                write!(out, "{}", r.render(f))?;
+                writeln!(out)?;
+            }
+            if all.len() > limit {
+                writeln!(
+                    out,
+                    "… {} more findings not shown (--max-findings {limit})",
+                    all.len() - limit
+                )?;
+            }
+            let e = all.iter().filter(|f| f.severity == Severity::Error).count();
+            let w = all
+                .iter()
+                .filter(|f| f.severity == Severity::Warning)
+                .count();
+            let mut line = format!(
+                "{} file{} checked: {e} error{}, {w} warning{}",
+                results.len(),
+                if results.len() == 1 { "" } else { "s" },
+                if e == 1 { "" } else { "s" },
+                if w == 1 { "" } else { "s" },
+            );
+            if suppressed > 0 {
+                line.push_str(&format!(", {suppressed} suppressed"));
+            }
+            writeln!(out, "{line}")?;
+        }
+        Format::Compact => {
+            for f in &all {
+                writeln!(out, "{}", report::compact(f))?;
+            }
+        }
+        Format::Json => {
+            let owned: Vec<Finding> = all.iter().map(|f| (*f).clone()).collect();
+            let derating = results
+                .first()
+                .map(|r| r.settings.derating.clone())
+                .unwrap_or_default();
+            let doc = report::json::document(&owned, results.len(), suppressed, &derating);
+            writeln!(
+                out,
+                "{}",
+                serde_json::to_string_pretty(&doc).unwrap_or_default()
+            )?;
+        }
+        Format::Sarif => {
+            let owned: Vec<Finding> = all.iter().map(|f| (*f).clone()).collect();
+            let doc = report::sarif::document(&owned);
+            writeln!(
+                out,
+                "{}",
+                serde_json::to_string_pretty(&doc).unwrap_or_default()
+            )?;
+        }
+    }
+    Ok(())
+}
+
+const CAUTION: &str = "Caution: armature supports a design review; it does not replace one. Motor drives store energy and \
+can overheat, burn or injure. Verify on the bench with current-limited supplies, and defer to local codes, the \
+parts' data sheets and licensed practice.";
+
+fn explain(id: &str, _common: &CommonArgs) -> i32 {
+    match crate::checks::find(id) {
+        Some(r) => {
+            let m = r.meta;
+            println!("{} ({}, default {})\n", m.id, m.family, m.severity);
+            println!("{}\n", m.summary);
+            println!("{}", m.docs.trim_end());
+            if m.hazard {
+                println!("\n{CAUTION}");
+            }
+            0
+        }
+        None => {
+            let ids: Vec<&'static str> = crate::checks::registry()
+                .iter()
+                .map(|r| r.meta.id)
+                .collect();
+            let hint = crate::suggest::did_you_mean(id, ids.iter().copied());
+            eprintln!(
+                "error: unknown rule `{id}`{}",
+                if hint.is_empty() {
+                    String::new()
+                } else {
+                    format!("; {hint}")
+                }
+            );
+            eprintln!("known rules:");
+            for i in ids {
+                eprintln!("  {i}");
+            }
+            2
+        }
+    }
+}
+
+fn rules(_common: &CommonArgs) -> i32 {
+    for r in crate::checks::registry() {
+        println!(
+            "{:<28} {:<8} {}",
+            r.meta.id,
+            r.meta.severity.as_str(),
+            r.meta.summary
+        );
+    }
+    0
+}
+
+fn facts(path: &Path, format: FactsFormat, common: &CommonArgs) -> i32 {
+    let opts = base_options(common);
+    let cache = LibraryCache::default();
+    let shown = crate::shown_path(path);
+    let file = match crate::read_netlist(path, &shown) {
+        Ok(f) => f,
+        Err(f) => {
+            eprint!("{}", report::human::Renderer::new(false).render(&f));
+            return 2;
+        }
+    };
+    match crate::build(&file, &opts, &cache) {
+        Err(errs) => {
+            let r = report::human::Renderer::new(false);
+            for e in errs {
+                eprint!("{}", r.render(&e));
+            }
+            2
+        }
+        Ok(b) => {
+            match format {
+                FactsFormat::Json => println!(
+                    "{}",
+                    serde_json::to_string_pretty(&crate::analysis::facts_json(&b))
+                        .unwrap_or_default()
+                ),
+                FactsFormat::Human => print!("{}", crate::analysis::facts_human(&b)),
+            }
+            0
+        }
+    }
+}

@@ -1,0 +1,249 @@
+//! armature — a design-rule checker for netlist-described motor drives.
+//!
+//! The pipeline runs one way: `syntax` → `model` → `graph` → `analysis` →
+//! `checks` (+ `team`) → `report`. Everything is callable on a string:
+//! see [`check_text`].
+
+pub mod analysis;
+pub mod checks;
+pub mod cli;
+pub mod finding;
+pub mod graph;
+pub mod model;
+pub mod report;
+pub mod settings;
+pub mod source;
+pub mod suggest;
+pub mod suppress;
+pub mod syntax;
+pub mod units;
+pub mod yaml;
+
+use finding::{Class, Finding, Severity};
+use model::library::LibraryCache;
+use model::{Circuit, Library};
+use settings::Settings;
+use source::{SourceFile, Span};
+use std::path::{Path, PathBuf};
+use std::sync::Arc;
+
+/// What a run needs beyond the netlist itself.
+#[derive(Default)]
+pub struct Options {
+    /// Parts libraries from the command line and the configuration:
+    /// (path to read, name to show).
+    pub libraries: Vec<(PathBuf, String)>,
+    pub settings: Settings,
+}
+
+/// The outcome of checking one file.
+pub struct FileResult {
+    pub file: Arc<SourceFile>,
+    pub findings: Vec<Finding>,
+    pub suppressed: usize,
+    /// Derating in force for the file.
+    pub settings: Settings,
+}
+
+impl FileResult {
+    pub fn input_error(&self) -> bool {
+        self.findings.iter().any(|f| f.class == Class::Input)
+    }
+}
+
+/// Everything built for a file, for `facts` and `export`.
+pub struct Built {
+    pub circuit: Circuit,
+    pub graph: graph::CircuitGraph,
+    pub analysis: analysis::Analysis,
+    pub settings: Settings,
+}
+
+/// Parse, elaborate and analyse; `Err` with the input errors when the file
+/// cannot be checked.
+pub fn build(
+    file: &Arc<SourceFile>,
+    opts: &Options,
+    cache: &LibraryCache,
+) -> Result<Built, Vec<Finding>> {
+    let (ast, mut errors) = syntax::parse(file);
+    let mut libs: Vec<Arc<Library>> = Vec::new();
+    let base = file
+        .path
+        .parent()
+        .map(Path::to_path_buf)
+        .unwrap_or_default();
+    for (text, span) in model::library_lines(&ast) {
+        let path = base.join(&text);
+        let shown = shown_path(&path);
+        match cache.load(&path, &shown) {
+            Ok(l) => libs.push(l),
+            Err(errs) => {
+                for e in errs {
+                    if e.file.text.is_empty() && e.rule == "file-error" {
+                        // unreadable: point at the `library` line
+                        errors.push(
+                            Finding::input("library-error", file, span, e.message.clone())
+                                .label("this library")
+                                .help(format!(
+                                    "the path is relative to this netlist's folder: {}",
+                                    shown
+                                )),
+                        );
+                    } else {
+                        errors.push(e);
+                    }
+                }
+            }
+        }
+    }
+    for (path, shown) in &opts.libraries {
+        match cache.load(path, shown) {
+            Ok(l) => libs.push(l),
+            Err(errs) => errors.extend(errs),
+        }
+    }
+    let (circuit, mut elab_errors) = model::elaborate(file, &ast, &libs);
+    errors.append(&mut elab_errors);
+    let mut settings = opts.settings.clone();
+    settings.known_part_names = libs.iter().flat_map(|l| l.parts.keys().cloned()).collect();
+    settings.known_part_names.sort();
+    if let Some((t, _)) = circuit.ambient {
+        settings.ambient = t;
+    }
+    if errors.iter().any(|e| e.class == Class::Input) {
+        return Err(errors);
+    }
+    let graph = graph::CircuitGraph::build(&circuit);
+    let analysis = analysis::analyze(&circuit, &graph, &settings);
+    // warnings found while parsing (malformed suppressions) travel along
+    let mut built = Built {
+        circuit,
+        graph,
+        analysis,
+        settings,
+    };
+    built.analysis.early.append(&mut errors);
+    Ok(built)
+}
+
+/// Check one file already in memory.
+pub fn check_source(file: Arc<SourceFile>, opts: &Options, cache: &LibraryCache) -> FileResult {
+    match build(&file, opts, cache) {
+        Err(mut findings) => {
+            report::sort_findings(&mut findings);
+            FileResult {
+                file,
+                findings,
+                suppressed: 0,
+                settings: opts.settings.clone(),
+            }
+        }
+        Ok(mut b) => {
+            let mut findings = std::mem::take(&mut b.analysis.early);
+            let ctx = checks::Ctx {
+                circuit: &b.circuit,
+                graph: &b.graph,
+                analysis: &b.analysis,
+                settings: &b.settings,
+            };
+            findings.extend(checks::run_all(&ctx));
+            for f in &mut findings {
+                if let Some(s) = b.settings.severity_of(&f.rule, f.severity) {
+                    f.severity = s;
+                }
+            }
+            let (mut findings, suppressed) = suppress::apply(&b.circuit, findings);
+            report::sort_findings(&mut findings);
+            FileResult {
+                file,
+                findings,
+                suppressed,
+                settings: b.settings,
+            }
+        }
+    }
+}
+
+/// Check a netlist given as a string (tests, benches, embedding).
+pub fn check_text(name: &str, text: &str, opts: &Options) -> FileResult {
+    let cache = LibraryCache::default();
+    check_source(SourceFile::from_str(name, text), opts, &cache)
+}
+
+/// Read and check a file on disk.
+pub fn check_path(path: &Path, opts: &Options, cache: &LibraryCache) -> FileResult {
+    let shown = shown_path(path);
+    match read_netlist(path, &shown) {
+        Ok(file) => check_source(file, opts, cache),
+        Err(f) => FileResult {
+            file: f.file.clone(),
+            findings: vec![f],
+            suppressed: 0,
+            settings: opts.settings.clone(),
+        },
+    }
+}
+
+/// The largest netlist accepted.
+pub const MAX_FILE_BYTES: u64 = 256 << 20;
+
+pub fn read_netlist(path: &Path, shown: &str) -> Result<Arc<SourceFile>, Finding> {
+    if let Ok(m) = std::fs::metadata(path) {
+        if m.is_file() && m.len() > MAX_FILE_BYTES {
+            return Err(Finding::input(
+                "file-error",
+                &SourceFile::new(shown, path, String::new()),
+                Span::new(0, 0),
+                format!(
+                    "`{shown}` is {} bytes; the limit is {} bytes",
+                    m.len(),
+                    MAX_FILE_BYTES
+                ),
+            ));
+        }
+    }
+    model::library::read_text(path, shown)
+}
+
+/// A path as shown to users: relative to the current folder when inside it.
+pub fn shown_path(path: &Path) -> String {
+    let cwd = std::env::current_dir().ok();
+    let clean = |p: &Path| -> PathBuf {
+        let mut out = PathBuf::new();
+        for c in p.components() {
+            match c {
+                std::path::Component::CurDir => {}
+                std::path::Component::ParentDir => {
+                    if !out.pop() {
+                        out.push("..");
+                    }
+                }
+                other => out.push(other.as_os_str()),
+            }
+        }
+        out
+    };
+    let p = clean(path);
+    if let Some(cwd) = cwd {
+        if let Ok(rel) = p.strip_prefix(&cwd) {
+            return rel.to_string_lossy().replace('\\', "/");
+        }
+    }
+    p.to_string_lossy().replace('\\', "/")
+}
+
+/// Exit code for a set of results: 2 input errors, 1 findings at or above
+/// the failing level, 0 otherwise.
+pub fn exit_code<'a>(results: impl IntoIterator<Item = &'a FileResult>, fail_on: Severity) -> i32 {
+    let mut code = 0;
+    for r in results {
+        if r.input_error() {
+            return 2;
+        }
+        if r.findings.iter().any(|f| f.severity >= fail_on) {
+            code = 1;
+        }
+    }
+    code
+}

@@ -1,0 +1,878 @@
+//! The elaborated circuit: parts with kinds, pins on nets, ratings.
+//!
+//! Elaboration reads the AST and the loaded parts libraries. Input errors
+//! (unknown kinds and keys, values of the wrong dimension, contradictory
+//! declarations) are findings of class `Input`; facts that the structure
+//! rules report (unknown parts and pins, missing pins, duplicate
+//! designators) are recorded on the circuit for the checks stage.
+
+pub mod kinds;
+pub mod library;
+
+use crate::finding::Finding;
+use crate::source::{SourceFile, Span};
+use crate::suggest;
+use crate::syntax::ast::{self, DriveMode, RailOptKind, StatementKind, Value};
+use crate::units::{self, Dimension};
+pub use kinds::{KeyType, Kind};
+pub use library::{LibPart, Library};
+use std::collections::HashMap;
+use std::sync::Arc;
+
+#[derive(Clone, Debug, PartialEq)]
+pub enum ParamValue {
+    Num(f64),
+    Word(String),
+}
+
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Origin {
+    Instance,
+    Library,
+}
+
+#[derive(Clone, Debug)]
+pub struct Param {
+    pub key: &'static str,
+    pub value: ParamValue,
+    pub origin: Origin,
+    /// In the netlist (instance) or in the library file.
+    pub span: Span,
+}
+
+/// Read a value's text for a key of a given type.
+pub fn interpret(ty: KeyType, text: &str) -> Result<ParamValue, String> {
+    match ty {
+        KeyType::Word => Ok(ParamValue::Word(text.to_string())),
+        KeyType::Q(d) => units::parse_as(text, d)
+            .map(|q| ParamValue::Num(q.value))
+            .map_err(|e| e.to_string()),
+        KeyType::DeltaT => units::parse_delta_temperature(text)
+            .map(|q| ParamValue::Num(q.value))
+            .map_err(|e| e.to_string()),
+    }
+}
+
+pub type NetId = usize;
+pub type PartId = usize;
+
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Rail {
+    pub nominal: f64,
+    pub max: f64,
+    pub min: f64,
+}
+
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum NetKind {
+    Signal,
+    Rail(Rail),
+    Ground,
+}
+
+#[derive(Clone, Debug)]
+pub struct Net {
+    pub name: String,
+    pub kind: NetKind,
+    /// (part, index into the part's pins)
+    pub conns: Vec<(PartId, usize)>,
+    /// Where the net is declared (rail/ground) or first named.
+    pub span: Span,
+}
+
+impl Net {
+    /// Fixed potential at worst case (rail max), if the net is a rail or ground.
+    pub fn fixed_max(&self) -> Option<f64> {
+        match self.kind {
+            NetKind::Rail(r) => Some(r.max),
+            NetKind::Ground => Some(0.0),
+            NetKind::Signal => None,
+        }
+    }
+    pub fn fixed_nominal(&self) -> Option<f64> {
+        match self.kind {
+            NetKind::Rail(r) => Some(r.nominal),
+            NetKind::Ground => Some(0.0),
+            NetKind::Signal => None,
+        }
+    }
+    pub fn fixed_min(&self) -> Option<f64> {
+        match self.kind {
+            NetKind::Rail(r) => Some(r.min),
+            NetKind::Ground => Some(0.0),
+            NetKind::Signal => None,
+        }
+    }
+    pub fn is_fixed(&self) -> bool {
+        !matches!(self.kind, NetKind::Signal)
+    }
+}
+
+#[derive(Clone, Debug)]
+pub struct Pin {
+    pub name: String,
+    pub net: NetId,
+    /// The `pin: NET` text.
+    pub span: Span,
+}
+
+#[derive(Clone, Debug)]
+pub struct Part {
+    pub reference: String,
+    pub kind: Kind,
+    pub pins: Vec<Pin>,
+    pub part_name: Option<String>,
+    pub lib: Option<Arc<LibPart>>,
+    pub inst: Vec<Param>,
+    /// The statement.
+    pub span: Span,
+    pub ref_span: Span,
+    pub line: usize,
+    /// `part=NAME` that no library has: (name, span of the value).
+    pub unknown_part: Option<(String, Span)>,
+    /// Pins listed that the kind does not have: (name, span).
+    pub unknown_pins: Vec<(String, Span)>,
+    /// Required pins not listed.
+    pub missing_pins: Vec<&'static str>,
+    pub pins_span: Span,
+}
+
+impl Part {
+    pub fn get(&self, key: &str) -> Option<&Param> {
+        self.inst
+            .iter()
+            .rev()
+            .find(|p| p.key == key)
+            .or_else(|| self.lib.as_ref().and_then(|l| l.get(key)))
+    }
+    pub fn num(&self, key: &str) -> Option<f64> {
+        match self.get(key)?.value {
+            ParamValue::Num(v) => Some(v),
+            ParamValue::Word(_) => None,
+        }
+    }
+    pub fn word(&self, key: &str) -> Option<&str> {
+        match &self.get(key)?.value {
+            ParamValue::Word(w) => Some(w),
+            ParamValue::Num(_) => None,
+        }
+    }
+    pub fn pin(&self, name: &str) -> Option<&Pin> {
+        self.pins.iter().find(|p| p.name == name)
+    }
+    pub fn net_of(&self, name: &str) -> Option<NetId> {
+        self.pin(name).map(|p| p.net)
+    }
+    /// Display name of the part as fitted: `part=` or the kind.
+    pub fn part_label(&self) -> String {
+        self.part_name
+            .clone()
+            .unwrap_or_else(|| self.kind.name().to_string())
+    }
+}
+
+#[derive(Clone, Debug, PartialEq)]
+pub enum DriveKind {
+    Static,
+    Pwm {
+        freq: f64,
+        duty_min: f64,
+        duty_max: f64,
+        complement: Option<(PartId, String)>,
+        deadtime: Option<f64>,
+    },
+}
+
+#[derive(Clone, Debug)]
+pub struct Drive {
+    pub part: PartId,
+    pub pin: String,
+    pub kind: DriveKind,
+    pub span: Span,
+    pub line: usize,
+}
+
+#[derive(Debug)]
+pub struct Circuit {
+    pub file: Arc<SourceFile>,
+    pub design: Option<String>,
+    pub revision: Option<String>,
+    pub nets: Vec<Net>,
+    pub net_by_name: HashMap<String, NetId>,
+    pub parts: Vec<Part>,
+    pub part_by_ref: HashMap<String, PartId>,
+    pub drives: Vec<Drive>,
+    pub ambient: Option<(f64, Span)>,
+    pub suppressions: Vec<ast::Suppression>,
+    /// (first, duplicate)
+    pub duplicates: Vec<(PartId, PartId)>,
+    /// `library` lines: (path text, span)
+    pub library_lines: Vec<(String, Span)>,
+}
+
+impl Circuit {
+    pub fn net(&self, id: NetId) -> &Net {
+        &self.nets[id]
+    }
+    pub fn part(&self, id: PartId) -> &Part {
+        &self.parts[id]
+    }
+    pub fn part_id(&self, reference: &str) -> Option<PartId> {
+        self.part_by_ref.get(reference).copied()
+    }
+    /// Net name of a part's pin, for messages.
+    pub fn pin_net_name(&self, part: PartId, pin: &str) -> Option<&str> {
+        let n = self.parts.get(part)?.net_of(pin)?;
+        self.nets.get(n).map(|n| n.name.as_str())
+    }
+    /// The drive statement of a controller pin.
+    pub fn drive_of(&self, part: PartId, pin: &str) -> Option<&Drive> {
+        self.drives.iter().find(|d| d.part == part && d.pin == pin)
+    }
+}
+
+/// The `library` lines of a netlist, before elaboration (so that the
+/// caller can load them).
+pub fn library_lines(ast: &ast::Netlist) -> Vec<(String, Span)> {
+    ast.statements
+        .iter()
+        .filter_map(|s| match &s.kind {
+            StatementKind::Library(p) => Some((p.node.clone(), p.span)),
+            _ => None,
+        })
+        .collect()
+}
+
+struct Elab<'a> {
+    file: &'a Arc<SourceFile>,
+    libs: &'a [Arc<Library>],
+    errors: Vec<Finding>,
+    c: Circuit,
+}
+
+const UNKNOWN_KEY: &str = "unknown-key";
+const INVALID_VALUE: &str = "invalid-value";
+
+impl Elab<'_> {
+    fn err(&mut self, code: &str, span: Span, msg: String, label: &str, help: Option<String>) {
+        let mut f = Finding::input(code, self.file, span, msg).label(label);
+        if let Some(h) = help.filter(|h| !h.is_empty()) {
+            f = f.help(h);
+        }
+        self.errors.push(f);
+    }
+
+    fn net(&mut self, name: &str, span: Span) -> NetId {
+        if let Some(&id) = self.c.net_by_name.get(name) {
+            return id;
+        }
+        let id = self.c.nets.len();
+        self.c.nets.push(Net {
+            name: name.to_string(),
+            kind: NetKind::Signal,
+            conns: Vec::new(),
+            span,
+        });
+        self.c.net_by_name.insert(name.to_string(), id);
+        id
+    }
+
+    fn quantity(&mut self, v: &ast::Spanned<Value>, dim: Dimension, what: &str) -> Option<f64> {
+        match &v.node {
+            Value::Atom(t) => match units::parse_as(t, dim) {
+                Ok(q) => Some(q.value),
+                Err(e) => {
+                    self.err(
+                        INVALID_VALUE,
+                        v.span,
+                        format!("{what}: {e}"),
+                        &format!("expected {}", dim.article_name()),
+                        None,
+                    );
+                    None
+                }
+            },
+            other => {
+                self.err(
+                    INVALID_VALUE,
+                    v.span,
+                    format!(
+                        "{what}: expected {}, found {}",
+                        dim.article_name(),
+                        other.describe()
+                    ),
+                    "here",
+                    None,
+                );
+                None
+            }
+        }
+    }
+
+    fn find_lib_part(&self, name: &str) -> Option<Arc<LibPart>> {
+        self.libs.iter().find_map(|l| l.parts.get(name).cloned())
+    }
+
+    fn rail(
+        &mut self,
+        name: &ast::Spanned<String>,
+        nominal: &ast::Spanned<Value>,
+        opts: &[ast::RailOpt],
+        ground: bool,
+    ) {
+        let id = self.net(&name.node, name.span);
+        if self.c.nets[id].is_fixed() {
+            self.err(
+                "invalid-value",
+                name.span,
+                format!("`{}` is declared twice as a rail or ground", name.node),
+                "declared again here",
+                Some("declare each rail or ground once".to_string()),
+            );
+            return;
+        }
+        self.c.nets[id].span = name.span;
+        if ground {
+            self.c.nets[id].kind = NetKind::Ground;
+            return;
+        }
+        let Some(nom) = self.quantity(nominal, Dimension::Voltage, "rail voltage") else {
+            return;
+        };
+        let mut r = Rail {
+            nominal: nom,
+            max: nom,
+            min: nom,
+        };
+        for o in opts {
+            match o.kind {
+                RailOptKind::Max => {
+                    if let Some(v) = self.quantity(&o.value, Dimension::Voltage, "rail maximum") {
+                        r.max = v;
+                    }
+                }
+                RailOptKind::Min => {
+                    if let Some(v) = self.quantity(&o.value, Dimension::Voltage, "rail minimum") {
+                        r.min = v;
+                    }
+                }
+                RailOptKind::Tol => {
+                    if let Some(t) = self.quantity(&o.value, Dimension::Number, "rail tolerance") {
+                        let t = t.abs();
+                        r.max = nom + nom.abs() * t;
+                        r.min = nom - nom.abs() * t;
+                    }
+                }
+            }
+        }
+        if r.max < r.min {
+            self.err(
+                INVALID_VALUE,
+                name.span,
+                format!(
+                    "rail `{}` has a maximum ({}) below its minimum ({})",
+                    name.node,
+                    units::format_si(r.max, Dimension::Voltage),
+                    units::format_si(r.min, Dimension::Voltage)
+                ),
+                "this rail",
+                None,
+            );
+        }
+        self.c.nets[id].kind = NetKind::Rail(r);
+    }
+
+    fn part(&mut self, st: &ast::PartStmt, span: Span, line: usize) {
+        let Some(kind) = Kind::from_name(&st.kind.node) else {
+            let hint = suggest::did_you_mean(&st.kind.node, Kind::ALL.iter().map(|k| k.name()));
+            self.err(
+                "unknown-kind",
+                st.kind.span,
+                format!("unknown part kind `{}`", st.kind.node),
+                "unknown kind",
+                Some(if hint.is_empty() {
+                    format!(
+                        "known kinds: {}",
+                        Kind::ALL
+                            .iter()
+                            .map(|k| k.name())
+                            .collect::<Vec<_>>()
+                            .join(", ")
+                    )
+                } else {
+                    hint
+                }),
+            );
+            return;
+        };
+        let id = self.c.parts.len();
+        let mut part = Part {
+            reference: st.reference.node.clone(),
+            kind,
+            pins: Vec::new(),
+            part_name: None,
+            lib: None,
+            inst: Vec::new(),
+            span,
+            ref_span: st.reference.span,
+            line,
+            unknown_part: None,
+            unknown_pins: Vec::new(),
+            missing_pins: Vec::new(),
+            pins_span: st.pins_span,
+        };
+        // pins
+        let positional = kind.positional_pins();
+        let mut bare_index = 0;
+        for entry in &st.pins {
+            let pin_name = match &entry.pin {
+                Some(p) => p.node.clone(),
+                None => match positional.and_then(|p| p.get(bare_index)) {
+                    Some(n) => {
+                        bare_index += 1;
+                        n.to_string()
+                    }
+                    None => {
+                        let msg = if positional.is_some() {
+                            format!("a {} has two pins; this is a third net", kind.name())
+                        } else {
+                            format!("a {} needs named pins (`pin: NET`)", kind.name())
+                        };
+                        self.err(
+                            "parse-error",
+                            entry.net.span,
+                            msg,
+                            "bare net",
+                            Some(pin_help(kind)),
+                        );
+                        continue;
+                    }
+                },
+            };
+            let pin_span = match &entry.pin {
+                Some(p) => p.span.join(entry.net.span),
+                None => entry.net.span,
+            };
+            if let kinds::PinSpec::Fixed(list) = kind.pins() {
+                if !list.iter().any(|(n, _)| *n == pin_name) {
+                    part.unknown_pins
+                        .push((pin_name, entry.pin.as_ref().map_or(pin_span, |p| p.span)));
+                    continue;
+                }
+            }
+            if part.pins.iter().any(|p| p.name == pin_name) {
+                self.err(
+                    "parse-error",
+                    pin_span,
+                    format!("pin `{pin_name}` of `{}` is listed twice", part.reference),
+                    "listed again",
+                    None,
+                );
+                continue;
+            }
+            let net = self.net(&entry.net.node, entry.net.span);
+            self.c.nets[net].conns.push((id, part.pins.len()));
+            part.pins.push(Pin {
+                name: pin_name,
+                net,
+                span: pin_span,
+            });
+        }
+        if let kinds::PinSpec::Fixed(list) = kind.pins() {
+            for (n, required) in list {
+                if *required && part.pin(n).is_none() {
+                    part.missing_pins.push(n);
+                }
+            }
+        }
+        // primary value
+        if let Some(v) = &st.value {
+            match kind.primary_key() {
+                Some(key) => {
+                    if let Some(p) = self.param_value(kind, key, v) {
+                        part.inst.push(p);
+                    }
+                }
+                None => self.err(
+                    "parse-error",
+                    v.span,
+                    format!("a {} takes no bare value after its pins", kind.name()),
+                    "bare value",
+                    Some(format!(
+                        "write it as `key=value`; keys of a {}: {}",
+                        kind.name(),
+                        kind.keys()
+                            .iter()
+                            .map(|k| k.name)
+                            .collect::<Vec<_>>()
+                            .join(" ")
+                    )),
+                ),
+            }
+        }
+        // parameters
+        for p in &st.params {
+            if p.key.node == "part" {
+                let name = match &p.value.node {
+                    Value::Atom(s) | Value::Str(s) => s.clone(),
+                    Value::Range(..) => {
+                        self.err(
+                            INVALID_VALUE,
+                            p.value.span,
+                            "`part` names a part, not a range".into(),
+                            "here",
+                            None,
+                        );
+                        continue;
+                    }
+                };
+                match self.find_lib_part(&name) {
+                    Some(lp) => {
+                        if lp.kind != kind {
+                            let f = Finding::input(
+                                "kind-mismatch",
+                                self.file,
+                                p.value.span,
+                                format!(
+                                    "`{name}` is a {} in the library, but `{}` is a {}",
+                                    lp.kind.name(),
+                                    part.reference,
+                                    kind.name()
+                                ),
+                            )
+                            .label("wrong kind of part")
+                            .related_in(&lp.file, lp.span, format!("`{name}` is defined here"))
+                            .help(format!(
+                                "use a {} part here, or change the line to `{} {} …`",
+                                kind.name(),
+                                lp.kind.name(),
+                                part.reference
+                            ));
+                            self.errors.push(f);
+                        } else {
+                            part.lib = Some(lp);
+                        }
+                    }
+                    None => part.unknown_part = Some((name.clone(), p.value.span)),
+                }
+                part.part_name = Some(name);
+                continue;
+            }
+            let Some(def) = kind.key(&p.key.node) else {
+                let hint = suggest::did_you_mean(
+                    &p.key.node,
+                    kind.keys()
+                        .iter()
+                        .map(|k| k.name)
+                        .chain(std::iter::once("part")),
+                );
+                self.err(
+                    UNKNOWN_KEY,
+                    p.key.span,
+                    format!("unknown key `{}` for a {}", p.key.node, kind.name()),
+                    "unknown key",
+                    Some(if hint.is_empty() {
+                        format!(
+                            "keys of a {}: part {}",
+                            kind.name(),
+                            kind.keys()
+                                .iter()
+                                .map(|k| k.name)
+                                .collect::<Vec<_>>()
+                                .join(" ")
+                        )
+                    } else {
+                        hint
+                    }),
+                );
+                continue;
+            };
+            if let Some(param) = self.param_value(kind, def.name, &p.value) {
+                part.inst.push(param);
+            }
+        }
+        if let Some(&first) = self.c.part_by_ref.get(&part.reference) {
+            self.c.duplicates.push((first, id));
+        } else {
+            self.c.part_by_ref.insert(part.reference.clone(), id);
+        }
+        self.c.parts.push(part);
+    }
+
+    fn param_value(&mut self, kind: Kind, key: &str, v: &ast::Spanned<Value>) -> Option<Param> {
+        let def = kind.key(key)?;
+        let text = match &v.node {
+            Value::Atom(s) => s.clone(),
+            Value::Str(s) if def.ty == KeyType::Word => s.clone(),
+            other => {
+                self.err(
+                    INVALID_VALUE,
+                    v.span,
+                    format!("`{key}` takes a single value, found {}", other.describe()),
+                    "here",
+                    None,
+                );
+                return None;
+            }
+        };
+        match interpret(def.ty, &text) {
+            Ok(value) => {
+                let value = match value {
+                    ParamValue::Word(w) => ParamValue::Word(w.to_lowercase()),
+                    n => n,
+                };
+                Some(Param {
+                    key: def.name,
+                    value,
+                    origin: Origin::Instance,
+                    span: v.span,
+                })
+            }
+            Err(msg) => {
+                let label = match def.ty {
+                    KeyType::Q(d) => format!("expected {}", d.article_name()),
+                    _ => "here".to_string(),
+                };
+                self.err(
+                    INVALID_VALUE,
+                    v.span,
+                    format!("`{key}`: {msg}"),
+                    &label,
+                    None,
+                );
+                None
+            }
+        }
+    }
+
+    fn drive(
+        &mut self,
+        pin: &ast::PinRef,
+        mode: &DriveMode,
+        span: Span,
+        line: usize,
+    ) -> Option<()> {
+        let part = self.resolve_pin(pin)?;
+        let kind = match mode {
+            DriveMode::Static => DriveKind::Static,
+            DriveMode::Pwm {
+                freq,
+                duty,
+                complement,
+                deadtime,
+            } => {
+                let f = self.quantity(freq, Dimension::Frequency, "PWM frequency")?;
+                if f <= 0.0 {
+                    self.err(
+                        INVALID_VALUE,
+                        freq.span,
+                        "a PWM frequency must be above 0 Hz".into(),
+                        "here",
+                        None,
+                    );
+                    return None;
+                }
+                let (mut dmin, mut dmax) = (0.0, 1.0);
+                if let Some(d) = duty {
+                    match &d.node {
+                        Value::Range(lo, hi) => {
+                            let lo_v = ast::Spanned::new(Value::Atom(lo.node.clone()), lo.span);
+                            let hi_v = ast::Spanned::new(Value::Atom(hi.node.clone()), hi.span);
+                            dmin = self.quantity(&lo_v, Dimension::Number, "duty")?;
+                            dmax = self.quantity(&hi_v, Dimension::Number, "duty")?;
+                        }
+                        _ => {
+                            let v = self.quantity(d, Dimension::Number, "duty")?;
+                            dmin = v;
+                            dmax = v;
+                        }
+                    }
+                    if !(0.0..=1.0).contains(&dmin) || !(0.0..=1.0).contains(&dmax) || dmin > dmax {
+                        self.err(
+                            INVALID_VALUE,
+                            d.span,
+                            "a duty range must lie within 0 %..100 %, low end first".into(),
+                            "here",
+                            None,
+                        );
+                        return None;
+                    }
+                }
+                let comp = match complement {
+                    Some(c) => Some((self.resolve_pin(c)?, c.pin.node.clone())),
+                    None => None,
+                };
+                let dt = match deadtime {
+                    Some(d) => Some(self.quantity(d, Dimension::Time, "dead time")?),
+                    None => None,
+                };
+                DriveKind::Pwm {
+                    freq: f,
+                    duty_min: dmin,
+                    duty_max: dmax,
+                    complement: comp,
+                    deadtime: dt,
+                }
+            }
+        };
+        self.c.drives.push(Drive {
+            part,
+            pin: pin.pin.node.clone(),
+            kind,
+            span,
+            line,
+        });
+        Some(())
+    }
+
+    fn resolve_pin(&mut self, pin: &ast::PinRef) -> Option<PartId> {
+        let Some(id) = self.c.part_by_ref.get(&pin.part.node).copied() else {
+            let hint = suggest::did_you_mean(
+                &pin.part.node,
+                self.c.part_by_ref.keys().map(|s| s.as_str()),
+            );
+            self.err(
+                "unknown-ref",
+                pin.part.span,
+                format!("`{}` is not a part of this netlist", pin.part.node),
+                "no such part",
+                Some(if hint.is_empty() {
+                    "declare the controller before the `drive` line that names it".to_string()
+                } else {
+                    hint
+                }),
+            );
+            return None;
+        };
+        let p = &self.c.parts[id];
+        if !matches!(p.kind, Kind::Mcu | Kind::Driver) {
+            self.err(
+                "invalid-value",
+                pin.part.span,
+                format!(
+                    "`{}` is a {}; only a controller (mcu) pin can be driven",
+                    p.reference,
+                    p.kind.name()
+                ),
+                "not a controller",
+                None,
+            );
+            return None;
+        }
+        if p.pin(&pin.pin.node).is_none() {
+            let hint = suggest::did_you_mean(&pin.pin.node, p.pins.iter().map(|x| x.name.as_str()));
+            let reference = p.reference.clone();
+            self.err(
+                "unknown-pin",
+                pin.pin.span,
+                format!(
+                    "`{reference}` has no pin `{}` in its pin list",
+                    pin.pin.node
+                ),
+                "no such pin",
+                Some(if hint.is_empty() {
+                    format!(
+                        "connect the pin on `{reference}`'s line, as `{}: NET`",
+                        pin.pin.node
+                    )
+                } else {
+                    hint
+                }),
+            );
+            return None;
+        }
+        Some(id)
+    }
+}
+
+fn pin_help(kind: Kind) -> String {
+    match kind.pins() {
+        kinds::PinSpec::Fixed(list) => format!(
+            "a {} has pins {}",
+            kind.name(),
+            list.iter()
+                .map(|(n, _)| format!("`{n}`"))
+                .collect::<Vec<_>>()
+                .join(", ")
+        ),
+        kinds::PinSpec::Any => "name each pin: `(PA3: NET, VDD: V5)`".to_string(),
+    }
+}
+
+/// Build the circuit from the AST and the loaded libraries.
+pub fn elaborate(
+    file: &Arc<SourceFile>,
+    netlist: &ast::Netlist,
+    libs: &[Arc<Library>],
+) -> (Circuit, Vec<Finding>) {
+    let mut e = Elab {
+        file,
+        libs,
+        errors: Vec::new(),
+        c: Circuit {
+            file: file.clone(),
+            design: None,
+            revision: None,
+            nets: Vec::new(),
+            net_by_name: HashMap::new(),
+            parts: Vec::with_capacity(netlist.statements.len()),
+            part_by_ref: HashMap::with_capacity(netlist.statements.len()),
+            drives: Vec::new(),
+            ambient: None,
+            suppressions: netlist.suppressions.clone(),
+            duplicates: Vec::new(),
+            library_lines: library_lines(netlist),
+        },
+    };
+    // Rails and grounds first, so that their kind is known to every part.
+    for st in &netlist.statements {
+        match &st.kind {
+            StatementKind::Rail {
+                name,
+                nominal,
+                opts,
+            } => e.rail(name, nominal, opts, false),
+            StatementKind::Ground(name) => e.rail(name, name_as_value(name), &[], true),
+            _ => {}
+        }
+    }
+    let mut drives = Vec::new();
+    let mut design_seen = false;
+    for st in &netlist.statements {
+        match &st.kind {
+            StatementKind::Design { name, rev } => {
+                if design_seen {
+                    e.err(
+                        "parse-error",
+                        st.span,
+                        "`design` may appear only once".into(),
+                        "second `design`",
+                        None,
+                    );
+                }
+                design_seen = true;
+                e.c.design = Some(name.node.clone());
+                e.c.revision = rev.as_ref().map(|r| r.node.clone());
+            }
+            StatementKind::Ambient(v) => {
+                if let Some(t) = e.quantity(v, Dimension::Temperature, "ambient") {
+                    e.c.ambient = Some((t, v.span));
+                }
+            }
+            StatementKind::Part(p) => e.part(p, st.span, st.line),
+            StatementKind::Drive { pin, mode } => drives.push((pin, mode, st.span, st.line)),
+            _ => {}
+        }
+    }
+    for (pin, mode, span, line) in drives {
+        let _ = e.drive(pin, mode, span, line);
+    }
+    (e.c, e.errors)
+}
+
+fn name_as_value(name: &ast::Spanned<String>) -> &ast::Spanned<Value> {
+    // A ground has no value; the rail() path does not read it for grounds.
+    static ZERO: std::sync::OnceLock<ast::Spanned<Value>> = std::sync::OnceLock::new();
+    let _ = name;
+    ZERO.get_or_init(|| ast::Spanned::new(Value::Atom("0V".into()), Span::default()))
+}

@@ -1,0 +1,117 @@
+//! Source files with a line index.
+//!
+//! Every span in armature is a byte range into one `SourceFile`. Line and
+//! column are computed through the line index (binary search), never by
+//! rescanning from the start of the text.
+
+use std::path::{Path, PathBuf};
+use std::sync::Arc;
+
+/// A byte range into a source file.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash, PartialOrd, Ord)]
+pub struct Span {
+    pub start: usize,
+    pub end: usize,
+}
+
+impl Span {
+    pub fn new(start: usize, end: usize) -> Span {
+        Span { start, end }
+    }
+    pub fn len(&self) -> usize {
+        self.end.saturating_sub(self.start)
+    }
+    pub fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+    pub fn join(self, other: Span) -> Span {
+        Span::new(self.start.min(other.start), self.end.max(other.end))
+    }
+}
+
+/// A file's text, its display name and the byte offset of each line start.
+#[derive(Debug)]
+pub struct SourceFile {
+    /// The name shown to users (the path as given, or relative).
+    pub name: String,
+    /// The path used to resolve relative `library` lines.
+    pub path: PathBuf,
+    pub text: String,
+    line_starts: Vec<usize>,
+}
+
+impl SourceFile {
+    pub fn new(name: impl Into<String>, path: impl Into<PathBuf>, text: String) -> Arc<SourceFile> {
+        let mut line_starts = Vec::with_capacity(text.len() / 40 + 1);
+        line_starts.push(0);
+        for (i, b) in text.bytes().enumerate() {
+            if b == b'\n' {
+                line_starts.push(i + 1);
+            }
+        }
+        Arc::new(SourceFile {
+            name: name.into(),
+            path: path.into(),
+            text,
+            line_starts,
+        })
+    }
+
+    /// A file built from a string, for tests and library callers.
+    pub fn from_str(name: &str, text: &str) -> Arc<SourceFile> {
+        SourceFile::new(name, Path::new(name), text.to_string())
+    }
+
+    pub fn line_count(&self) -> usize {
+        self.line_starts.len()
+    }
+
+    /// Zero-based line index of a byte offset.
+    pub fn line_index(&self, offset: usize) -> usize {
+        match self.line_starts.binary_search(&offset) {
+            Ok(i) => i,
+            Err(i) => i.saturating_sub(1),
+        }
+    }
+
+    /// Byte offset where a zero-based line starts.
+    pub fn line_start(&self, line: usize) -> usize {
+        self.line_starts
+            .get(line)
+            .copied()
+            .unwrap_or(self.text.len())
+    }
+
+    /// Byte offset just past the end of a zero-based line (before `\n`).
+    pub fn line_end(&self, line: usize) -> usize {
+        match self.line_starts.get(line + 1) {
+            Some(&next) => next.saturating_sub(1),
+            None => self.text.len(),
+        }
+    }
+
+    /// One-based line and column (in Unicode code points) of a byte offset.
+    pub fn line_col(&self, offset: usize) -> (usize, usize) {
+        let offset = offset.min(self.text.len());
+        let line = self.line_index(offset);
+        let start = self.line_start(line);
+        let col = self
+            .text
+            .get(start..offset)
+            .map(|s| s.chars().count())
+            .unwrap_or(offset - start);
+        (line + 1, col + 1)
+    }
+
+    /// The text of a span, or "" if the span is out of range.
+    pub fn slice(&self, span: Span) -> &str {
+        self.text.get(span.start..span.end).unwrap_or("")
+    }
+
+    /// The text of the zero-based line, without its line break.
+    pub fn line_text(&self, line: usize) -> &str {
+        let s = self.line_start(line);
+        let e = self.line_end(line);
+        self.text.get(s..e).unwrap_or("").trim_end_matches('\r')
+    }
+}

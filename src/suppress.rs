@@ -1,0 +1,109 @@
+//! Suppression comments: `# armature: allow RULE -- reason` on a part's
+//! line or on the line directly above it.
+
+use crate::finding::{Class, Finding, Severity};
+use crate::model::Circuit;
+
+/// Ids that a suppression may name besides the built-in ones: team rules
+/// (with a `/`) are checked against the loaded rule files by the caller.
+fn known_id(id: &str) -> bool {
+    id.contains('/') || crate::checks::registry().iter().any(|r| r.meta.id == id)
+}
+
+/// Remove suppressed findings; report suppressions that are malformed or
+/// unused. Returns the findings kept and the number suppressed.
+pub fn apply(c: &Circuit, findings: Vec<Finding>) -> (Vec<Finding>, usize) {
+    let sups = &c.suppressions;
+    let mut used = vec![false; sups.len()];
+    let mut kept = Vec::with_capacity(findings.len());
+    let mut suppressed = 0;
+    for f in findings {
+        if f.class == Class::Input {
+            kept.push(f);
+            continue;
+        }
+        let line = c.file.line_index(f.span.start);
+        let stmt_line = f
+            .parts
+            .first()
+            .and_then(|r| c.part_id(r))
+            .map(|p| c.part(p).line);
+        let hit = sups.iter().enumerate().find(|(_, s)| {
+            s.reason.is_some()
+                && s.rules.iter().any(|r| r.node == f.rule)
+                && [Some(line), stmt_line]
+                    .iter()
+                    .flatten()
+                    .any(|&l| s.line == l || (s.own_line && s.line + 1 == l))
+        });
+        match hit {
+            Some((i, _)) => {
+                used[i] = true;
+                suppressed += 1;
+            }
+            None => kept.push(f),
+        }
+    }
+    for (i, s) in sups.iter().enumerate() {
+        if s.reason.is_none() {
+            kept.push(
+                Finding::new(
+                    "suppression-no-reason",
+                    Severity::Warning,
+                    &c.file,
+                    s.span,
+                    "suppression without a reason",
+                )
+                .label("no `-- reason`")
+                .help("say why the finding is accepted: `# armature: allow RULE -- why it is safe here`"),
+            );
+            continue;
+        }
+        let mut all_known = true;
+        for r in &s.rules {
+            if !known_id(&r.node) {
+                all_known = false;
+                let ids: Vec<&'static str> = crate::checks::registry()
+                    .iter()
+                    .map(|r| r.meta.id)
+                    .collect();
+                let hint = crate::suggest::did_you_mean(&r.node, ids.iter().copied());
+                kept.push(
+                    Finding::new(
+                        "suppression-unknown-rule",
+                        Severity::Warning,
+                        &c.file,
+                        r.span,
+                        format!("suppression names unknown rule `{}`", r.node),
+                    )
+                    .label("unknown rule")
+                    .help(if hint.is_empty() {
+                        "`armature rules` lists the rule ids".to_string()
+                    } else {
+                        hint
+                    }),
+                );
+            }
+        }
+        if all_known && !used[i] {
+            let ids = s
+                .rules
+                .iter()
+                .map(|r| format!("`{}`", r.node))
+                .collect::<Vec<_>>()
+                .join(", ");
+            kept.push(
+                Finding::new(
+                    "suppression-unused",
+                    Severity::Warning,
+                    &c.file,
+                    s.span,
+                    format!("suppression of {ids} suppresses nothing"),
+                )
+                .label("nothing to suppress")
+                .help("remove the comment, or move it onto the line of the part it is meant for (or the line above)"),
+            );
+        }
+    }
+    (kept, suppressed)
+}
