@@ -113,6 +113,37 @@ impl std::fmt::Debug for Group {
     }
 }
 
+/// Pins tied to pin `k` by a `complement` declaration.
+fn partners(c: &Circuit, pins: &[CtlPin], k: usize) -> Vec<usize> {
+    let Some(me) = pins.get(k) else {
+        return Vec::new();
+    };
+    let mut out = Vec::new();
+    for d in &c.drives {
+        if let DriveKind::Pwm {
+            complement: Some((cp, cpin)),
+            ..
+        } = &d.kind
+        {
+            let a = (d.part, d.pin.clone());
+            let b = (*cp, cpin.clone());
+            let other = if &a == me {
+                Some(b)
+            } else if &b == me {
+                Some(a)
+            } else {
+                None
+            };
+            if let Some(o) = other {
+                if let Some(j) = pins.iter().position(|p| *p == o) {
+                    out.push(j);
+                }
+            }
+        }
+    }
+    out
+}
+
 fn drive_of<'a>(c: &'a Circuit, pin: &CtlPin) -> Option<&'a crate::model::Drive> {
     c.drive_of(pin.0, &pin.1)
 }
@@ -206,6 +237,15 @@ fn analyse_switches(
                 }
                 let mut flipped = r.assignment.clone();
                 flipped[k] = PinState::Low;
+                for j in partners(c, &grp.pins, k) {
+                    if let Some(x) = flipped.get_mut(j) {
+                        *x = if *x == PinState::High {
+                            PinState::Low
+                        } else {
+                            PinState::High
+                        };
+                    }
+                }
                 if let Some(other) = results.iter().skip(1).find(|o| o.assignment == flipped) {
                     let on_h = r.switch_on.get(&pid).copied().unwrap_or(false);
                     let on_l = other.switch_on.get(&pid).copied().unwrap_or(false);
@@ -224,7 +264,15 @@ fn analyse_switches(
         info.duty_min = 1.0;
         info.duty_max = 1.0;
         for (pin, inv) in &info.controls {
-            if let Some(d) = drive_of(c, pin) {
+            let d = drive_of(c, pin).or_else(|| {
+                c.drives.iter().find(|d| matches!(&d.kind, DriveKind::Pwm { complement: Some((cp, cpin)), .. } if *cp == pin.0 && *cpin == pin.1))
+            });
+            let inv = &if drive_of(c, pin).is_none() && d.is_some() {
+                !*inv
+            } else {
+                *inv
+            };
+            if let Some(d) = d {
                 if let DriveKind::Pwm {
                     freq,
                     duty_min,
@@ -277,6 +325,27 @@ fn analyse_switches(
                 "v_gs_on",
                 "the gate net has no defined voltage in any pin state",
             );
+        }
+        if p.kind.is_bipolar() {
+            let mut ib_min: Option<f64> = None;
+            let mut ib_max: Option<f64> = None;
+            for r in results.iter().filter(|r| !r.is_reset()) {
+                if r.switch_on.get(&pid).copied().unwrap_or(false) {
+                    let ib = r.current.get(&(pid + states::BASE)).copied().unwrap_or(0.0);
+                    ib_min = Some(ib_min.map_or(ib, |m| m.min(ib)));
+                    ib_max = Some(ib_max.map_or(ib, |m| m.max(ib)));
+                }
+            }
+            if let (Some(lo), Some(hi)) = (ib_min, ib_max) {
+                a.facts.set(
+                    pid,
+                    "i_b",
+                    lo,
+                    Current,
+                    Some("lowest base current in the on states".into()),
+                );
+                a.facts.set(pid, "i_b_max", hi, Current, None);
+            }
         }
         a.facts.set(pid, "f_pwm", info.f_pwm, Frequency, None);
         a.facts.set(pid, "duty_max", info.duty_max, Number, None);

@@ -551,6 +551,7 @@ fn currents(
     pins: &HashMap<(PartId, &str), PinState>,
     st: &mut StateResult,
 ) {
+    let mut base_currents = Vec::new();
     for &pid in &grp.parts {
         let p = c.part(pid);
         let v = |name: &str| p.net_of(name).and_then(|n| st.v(c, n));
@@ -587,17 +588,30 @@ fn currents(
                 }
                 Some(i)
             }
-            Kind::Npn | Kind::Pnp => match (v("c"), v("e")) {
-                (Some(cv), Some(e)) if st.switch_on.get(&pid).copied().unwrap_or(false) => {
-                    let vsat = p.num("vce_sat").unwrap_or(0.2);
-                    Some(if p.kind == Kind::Npn {
-                        ((cv - e) - vsat) / 0.05
-                    } else {
-                        -(((e - cv) - vsat) / 0.05)
-                    })
+            Kind::Npn | Kind::Pnp => {
+                if let (Some(b), Some(e)) = (v("b"), v("e")) {
+                    if st.diode_on.get(&(pid + BASE)).copied().unwrap_or(false) {
+                        let vbe = p.num("vbe_on").unwrap_or(0.7);
+                        let ib = if p.kind == Kind::Npn {
+                            (b - e) - vbe
+                        } else {
+                            (e - b) - vbe
+                        } / DIODE_R_ON;
+                        base_currents.push((pid + BASE, ib.max(0.0)));
+                    }
                 }
-                _ => Some(0.0),
-            },
+                match (v("c"), v("e")) {
+                    (Some(cv), Some(e)) if st.switch_on.get(&pid).copied().unwrap_or(false) => {
+                        let vsat = p.num("vce_sat").unwrap_or(0.2);
+                        Some(if p.kind == Kind::Npn {
+                            ((cv - e) - vsat) / 0.05
+                        } else {
+                            -(((e - cv) - vsat) / 0.05)
+                        })
+                    }
+                    _ => Some(0.0),
+                }
+            }
             Kind::Diode | Kind::Zener | Kind::Tvs => match (v("a"), v("k")) {
                 (Some(a), Some(k)) => {
                     let mut i = 0.0;
@@ -636,4 +650,5 @@ fn currents(
             st.current.insert(pid, i);
         }
     }
+    st.current.extend(base_currents);
 }

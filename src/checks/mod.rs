@@ -5,7 +5,13 @@
 //! computed*, *Example*, *Fix*), a detector that returns data and a thin
 //! `check` that turns the data into findings.
 
+pub mod bridge;
+pub mod common;
+pub mod freewheel;
+pub mod gate;
 pub mod structure;
+pub mod supply;
+pub mod switch;
 
 use crate::analysis::Analysis;
 use crate::finding::{Finding, Severity};
@@ -39,7 +45,13 @@ pub struct Rule {
 
 /// Every built-in rule, in a stable order.
 pub fn registry() -> Vec<Rule> {
-    structure::rules()
+    let mut v = structure::rules();
+    v.extend(freewheel::rules());
+    v.extend(gate::rules());
+    v.extend(switch::rules());
+    v.extend(bridge::rules());
+    v.extend(supply::rules());
+    v
 }
 
 pub fn find(id: &str) -> Option<Rule> {

@@ -1,0 +1,88 @@
+//! Helpers shared by the physics rules.
+
+use super::{Ctx, RuleMeta};
+use crate::finding::Finding;
+use crate::model::{Part, PartId};
+use crate::source::Span;
+use crate::units::{Dimension, format_si, percent};
+
+pub fn v(x: f64) -> String {
+    format_si(x, Dimension::Voltage)
+}
+pub fn a(x: f64) -> String {
+    format_si(x, Dimension::Current)
+}
+pub fn ohm(x: f64) -> String {
+    format_si(x, Dimension::Resistance)
+}
+pub fn t(x: f64) -> String {
+    format_si(x, Dimension::Time)
+}
+pub fn hz(x: f64) -> String {
+    format_si(x, Dimension::Frequency)
+}
+pub fn w(x: f64) -> String {
+    format_si(x, Dimension::Power)
+}
+pub fn degc(x: f64) -> String {
+    format_si(x, Dimension::Temperature)
+}
+pub fn pct(x: f64) -> String {
+    percent(x)
+}
+
+/// The span of a part's statement, limited to its first line.
+pub fn line_span(ctx: &Ctx, p: &Part) -> Span {
+    let f = &ctx.circuit.file;
+    let line = f.line_index(p.span.start);
+    Span::new(
+        p.span.start,
+        p.span.end.min(f.line_end(line)).max(p.span.start),
+    )
+}
+
+/// The span of one pin (`g: FAN_G`), or the part's line.
+pub fn pin_span(ctx: &Ctx, p: &Part, pin: &str) -> Span {
+    p.pin(pin)
+        .map(|x| x.span)
+        .unwrap_or_else(|| line_span(ctx, p))
+}
+
+/// A finding whose primary label is on a part's line.
+pub fn on_part(meta: &RuleMeta, ctx: &Ctx, pid: PartId, label: &str, message: String) -> Finding {
+    let p = ctx.circuit.part(pid);
+    super::finding(meta, ctx, line_span(ctx, p), message)
+        .label(label)
+        .parts([p.reference.clone()])
+}
+
+/// Add a related part (secondary label) and its designator.
+pub fn with_part(mut f: Finding, ctx: &Ctx, pid: PartId, label: String) -> Finding {
+    let p = ctx.circuit.part(pid);
+    f = f.related(line_span(ctx, p), label);
+    if !f.parts.contains(&p.reference) {
+        f.parts.push(p.reference.clone());
+    }
+    f
+}
+
+pub fn net_name(ctx: &Ctx, pid: PartId, pin: &str) -> String {
+    ctx.circuit
+        .pin_net_name(pid, pin)
+        .unwrap_or("?")
+        .to_string()
+}
+
+/// The ground-like net a pull-down should go to: the switch's reference
+/// pin (source or emitter).
+pub fn reference_net(ctx: &Ctx, pid: PartId) -> String {
+    let p = ctx.circuit.part(pid);
+    p.kind
+        .switch_pins()
+        .map(|(_, _, r)| net_name(ctx, pid, r))
+        .unwrap_or_else(|| "GND".to_string())
+}
+
+pub fn ref_of<'a>(ctx: &Ctx<'a>, pid: PartId) -> &'a str {
+    &ctx.circuit.part(pid).reference
+}

@@ -1,0 +1,88 @@
+use crate::checks::common::*;
+use crate::checks::{Ctx, Rule, RuleMeta};
+use crate::finding::{Finding, Severity};
+
+pub static META: RuleMeta = RuleMeta {
+    id: "clamp-overvoltage",
+    family: "freewheel",
+    severity: Severity::Error,
+    summary: "the switch's peak voltage at turn-off (rail + clamp) exceeds its rating",
+    hazard: true,
+    docs: r#"## What it checks
+The voltage a switch blocks at turn-off — the rail plus the clamp voltage
+of the freewheel path across the load, or the clamp voltage itself for a
+clamp across the switch — stays within its `vds_max` (`vce_max`) with the
+voltage derating in force (default 80 %).
+
+## Why it matters
+A Zener or TVS in the freewheel path makes a coil release faster, but the
+switch sees the rail plus the clamp. Past its rating the switch avalanches
+at every turn-off and fails.
+
+## How it is computed
+`V_peak = V_rail,max + V_clamp` for a path across the load, where
+`V_clamp` sums the forward drops, breakdown voltages and `I·R` of the path;
+for a clamp across the switch, the clamp voltage. Checked values: 12 V,
+10 mH, 10 Ω, diode + 24 V Zener simulated at 37.8 V peak (ngspice 39.3).
+
+## Example
+```
+diode D2 (a: VALVE_SW, k: VALVE_Z) part=DEMO-SK40-1A
+zener Z1 (a: VBAT, k: VALVE_Z) vz=47V
+nmos  Q2 (d: VALVE_SW, g: VALVE_G, s: GND) part=DEMO-N60-3A   # 60 V
+```
+Fixed:
+```
+zener Z1 (a: VBAT, k: VALVE_Z) part=DEMO-Z24
+```
+
+## Fix
+Lower the clamp voltage or choose a switch rated at least the voltage in
+the help line.
+"#,
+};
+
+pub const RULE: Rule = Rule { meta: &META, check };
+
+fn check(ctx: &Ctx) -> Vec<Finding> {
+    let d = &ctx.settings.derating;
+    let mut out = Vec::new();
+    let mut seen = Vec::new();
+    for tt in &ctx.analysis.turnoffs {
+        let Some(path) = &tt.path else { continue };
+        let p = ctx.circuit.part(tt.switch);
+        let Some(rating) = p.num("vds_max").or(p.num("vce_max")) else {
+            continue;
+        };
+        let limit = rating * d.voltage;
+        if tt.v_peak <= limit || seen.contains(&tt.switch) {
+            continue;
+        }
+        seen.push(tt.switch);
+        let mut f = on_part(
+            &META,
+            ctx,
+            tt.switch,
+            "blocks the clamp voltage",
+            format!(
+                "`{}` sees {} at turn-off (clamp {} {}), above {} of its {} rating ({})",
+                p.reference,
+                v(tt.v_peak),
+                v(path.v_loop),
+                path.describe(ctx.circuit),
+                pct(d.voltage),
+                v(rating),
+                v(limit)
+            ),
+        );
+        for &q in &path.parts {
+            f = with_part(f, ctx, q, "sets the clamp".into());
+        }
+        out.push(f.help(format!(
+            "use a switch rated at least {}, or lower the clamp so that the peak stays below {}",
+            v(tt.v_peak / d.voltage),
+            v(limit)
+        )));
+    }
+    out
+}

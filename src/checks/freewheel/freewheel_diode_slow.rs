@@ -1,0 +1,78 @@
+use crate::checks::common::*;
+use crate::checks::{Ctx, Rule, RuleMeta};
+use crate::finding::{Finding, Severity};
+
+pub static META: RuleMeta = RuleMeta {
+    id: "freewheel-diode-slow",
+    family: "freewheel",
+    severity: Severity::Warning,
+    summary: "the freewheel diode recovers too slowly for the PWM frequency",
+    hazard: false,
+    docs: r#"## What it checks
+A diode that freewheels a PWM-driven load recovers well within the PWM
+period: its reverse recovery time `trr` is at most 1 % of the period.
+Schottky diodes have no minority-carrier recovery and always pass.
+
+## Why it matters
+At each turn-on the switch must sweep out the diode's stored charge: a
+slow rectifier turns every edge into a brief short of the supply, with a
+current spike, switching loss in the switch and radiated noise.
+
+## How it is computed
+`trr ≤ 0.01 / f_pwm` [memory: rule of thumb], with `f_pwm` the frequency
+of the pin that drives the load's switch.
+
+## Example
+```
+drive U3.PD5 pwm 20kHz
+diode D6 (a: HEAT_SW, k: VBAT) part=DEMO-RECT-1A    # trr 2 µs
+```
+Fixed:
+```
+diode D6 (a: HEAT_SW, k: VBAT) part=DEMO-SK40-1A    # Schottky
+```
+
+## Fix
+Use a Schottky or an ultrafast diode whose `trr` is below the limit in the
+help line.
+"#,
+};
+
+pub const RULE: Rule = Rule { meta: &META, check };
+
+fn check(ctx: &Ctx) -> Vec<Finding> {
+    let mut out = Vec::new();
+    for (i, p) in ctx.circuit.parts.iter().enumerate() {
+        if p.kind != crate::model::Kind::Diode || p.word("type") == Some("schottky") {
+            continue;
+        }
+        let Some(f) = ctx.analysis.facts.value(i, "f_pwm").filter(|f| *f > 0.0) else {
+            continue;
+        };
+        let Some(trr) = p.num("trr") else { continue };
+        let limit = 0.01 / f;
+        if trr > limit {
+            out.push(
+                on_part(
+                    &META,
+                    ctx,
+                    i,
+                    "slow recovery",
+                    format!(
+                        "`{}` recovers in {}, more than 1 % of the {} period at {} ({})",
+                        p.reference,
+                        t(trr),
+                        t(1.0 / f),
+                        hz(f),
+                        t(limit)
+                    ),
+                )
+                .help(format!(
+                    "use a Schottky diode, or a fast diode with trr ≤ {}",
+                    t(limit)
+                )),
+            );
+        }
+    }
+    out
+}

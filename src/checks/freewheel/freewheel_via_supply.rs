@@ -1,0 +1,96 @@
+use crate::checks::common::*;
+use crate::checks::{Ctx, Rule, RuleMeta};
+use crate::finding::{Finding, Severity};
+use crate::model::Kind;
+
+pub static META: RuleMeta = RuleMeta {
+    id: "freewheel-via-supply",
+    family: "freewheel",
+    severity: Severity::Warning,
+    summary: "the only freewheel path returns the energy into a supply rail that has no capacitor to absorb it",
+    hazard: true,
+    docs: r#"## What it checks
+When the freewheel path passes through the supply (the load's current is
+pushed back into a rail, as through the body diodes of a bridge), that
+rail has a capacitor to ground to take the energy.
+
+## Why it matters
+A supply is built to deliver current, not to take it back. Without a
+capacitor the returned energy pumps the rail up: other parts on it see
+the overvoltage, and a battery charger or a regulator can latch up.
+
+## How it is computed
+The freewheel path of least voltage is searched; if it crosses from a
+higher fixed net to a lower one (the supply absorbing), the rail must have
+a capacitor with one pin on it and the other on ground or another rail.
+
+## Example
+```
+rail VBAT 12V max 14.4V
+# full bridge, no capacitor on VBAT
+```
+Fixed:
+```
+capacitor C1 (VBAT, GND) 1000uF v_max=25V
+```
+
+## Fix
+Add a bulk capacitor on the rail, close to the bridge, sized so that ½·L·I²
+raises it by only a small fraction of its voltage.
+"#,
+};
+
+pub const RULE: Rule = Rule { meta: &META, check };
+
+fn has_cap(ctx: &Ctx, net: usize) -> bool {
+    let c = ctx.circuit;
+    c.parts.iter().any(|p| {
+        p.kind == Kind::Capacitor
+            && p.pins.iter().any(|x| x.net == net)
+            && p.pins
+                .iter()
+                .any(|x| x.net != net && c.net(x.net).is_fixed())
+    })
+}
+
+fn check(ctx: &Ctx) -> Vec<Finding> {
+    let c = ctx.circuit;
+    let mut out: Vec<Finding> = Vec::new();
+    let mut seen = Vec::new();
+    for tt in &ctx.analysis.turnoffs {
+        let Some(p) = &tt.path else { continue };
+        let Some((x, _y, hv)) = p.via_supply else {
+            continue;
+        };
+        if hv <= 0.0 || has_cap(ctx, x) || seen.contains(&(tt.load, x)) {
+            continue;
+        }
+        seen.push((tt.load, x));
+        let l = c.part(tt.load).num("l").unwrap_or(0.0);
+        let e = 0.5 * l * tt.i0 * tt.i0;
+        let mut f = on_part(
+            &META,
+            ctx,
+            tt.load,
+            "returns its energy into the supply",
+            format!(
+                "when `{}` turns off, `{}` returns {} into `{}` {}, and `{}` has no capacitor",
+                ref_of(ctx, tt.switch),
+                ref_of(ctx, tt.load),
+                crate::units::format_si(e, crate::units::Dimension::Energy),
+                c.net(x).name,
+                p.describe(c),
+                c.net(x).name
+            ),
+        );
+        for &q in &p.parts {
+            f = with_part(f, ctx, q, "on the freewheel path".into());
+        }
+        f = f.related(c.net(x).span, "this rail");
+        out.push(f.help(format!(
+            "add a bulk capacitor from `{}` to ground near the switches",
+            c.net(x).name
+        )));
+    }
+    out
+}

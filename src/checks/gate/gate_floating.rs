@@ -1,0 +1,92 @@
+use crate::checks::common::*;
+use crate::checks::{Ctx, Rule, RuleMeta};
+use crate::finding::{Finding, Severity};
+use crate::model::PartId;
+
+pub static META: RuleMeta = RuleMeta {
+    id: "gate-floating",
+    family: "gate",
+    severity: Severity::Error,
+    summary: "a MOSFET gate (or transistor base) has no resistive path to its off level when the controller pin is high-impedance",
+    hazard: true,
+    docs: r#"## What it checks
+With every controller pin high-impedance — as they are during reset,
+power-up, brown-out and programming — each switch's gate (or base) still
+has a resistive path to a defined voltage.
+
+## Why it matters
+A floating gate charges from leakage and from the drain through the
+Miller capacitance; the switch half-turns-on, with the load running
+unasked and the switch dissipating in its linear region. It happens every
+time the controller resets, which is when nobody is watching.
+
+## How it is computed
+The control network is solved with every controller pin open; a gate net
+with no conducting path to a rail, ground or a driven output is floating.
+A pull-down on the controller side of a gate resistor counts: it still
+reaches the gate through the resistor.
+
+## Example
+```
+resistor R7 (HEAT_PWM, HEAT_G) 100
+nmos Q6 (d: HEAT_SW, g: HEAT_G, s: GND) part=DEMO-N60-3A
+```
+Fixed:
+```
+resistor R8 (HEAT_G, GND) 100k
+```
+
+## Fix
+Add a pull-down (10 kΩ–100 kΩ) from the gate to the source for an
+n-channel switch, or a pull-up from gate to source for a p-channel one.
+"#,
+};
+
+pub const RULE: Rule = Rule { meta: &META, check };
+
+pub fn detect(ctx: &Ctx) -> Vec<PartId> {
+    let mut v: Vec<PartId> = ctx
+        .analysis
+        .switches
+        .iter()
+        .filter(|(_, i)| i.reset_floating)
+        .map(|(p, _)| *p)
+        .collect();
+    v.sort_unstable();
+    v
+}
+
+fn check(ctx: &Ctx) -> Vec<Finding> {
+    detect(ctx)
+        .into_iter()
+        .map(|sw| {
+            let p = ctx.circuit.part(sw);
+            let (_, ctl, rpin) = p.kind.switch_pins().unwrap_or(("d", "g", "s"));
+            let g = net_name(ctx, sw, ctl);
+            let s = net_name(ctx, sw, rpin);
+            let what = if p.kind.is_mos() { "gate" } else { "base" };
+            let mut f = crate::checks::finding(
+                &META,
+                ctx,
+                pin_span(ctx, p, ctl),
+                format!(
+                    "the {what} of `{}` floats while its controller pin is high-impedance (reset, programming)",
+                    p.reference
+                ),
+            )
+            .label(format!("`{g}` has no path to a defined level"))
+            .parts([p.reference.clone()]);
+            if let Some(info) = ctx.analysis.switches.get(&sw) {
+                for ((mcu, pin), _) in &info.controls {
+                    f = with_part(f, ctx, *mcu, format!("`{}.{pin}` is high-impedance in reset", ref_of(ctx, *mcu)));
+                }
+            }
+            let help = if p.kind.is_p_type() {
+                format!("add a pull-up of 10 kΩ–100 kΩ from `{g}` to `{s}`")
+            } else {
+                format!("add a pull-down of 10 kΩ–100 kΩ from `{g}` to `{s}`")
+            };
+            f.help(help)
+        })
+        .collect()
+}

@@ -1,0 +1,128 @@
+use crate::checks::common::*;
+use crate::checks::{Ctx, Rule, RuleMeta};
+use crate::finding::{Finding, Severity};
+
+pub static META: RuleMeta = RuleMeta {
+    id: "gate-pulldown-strong",
+    family: "gate",
+    severity: Severity::Warning,
+    summary: "the pull-down draws more than the driving pin may source, or divides the drive below what the switch needs",
+    hazard: false,
+    docs: r#"## What it checks
+The gate network's pull-down does not load the controller pin beyond its
+current rating `io_i_max`, and does not divide the pin's level below the
+gate voltage at which the switch's `R_DS(on)` is specified when the pin
+itself would reach it.
+
+## Why it matters
+A pull-down that is too strong wastes the pin's current, drags the output
+level down (the pin's own resistance is in series) and, with a series
+gate resistor, forms a divider that leaves the switch half-enhanced and
+hot.
+
+## How it is computed
+The control network is solved with the pin high (pin output resistance
+25 Ω when `r_out` is not given [memory]); the pin's current and the
+switch's gate-source voltage are read from the solution.
+
+## Example
+```
+resistor R1 (FAN_PWM, FAN_G) 1k
+resistor R2 (FAN_G, GND) 1k        # halves the 5 V drive
+```
+Fixed:
+```
+resistor R1 (FAN_PWM, FAN_G) 100
+resistor R2 (FAN_G, GND) 100k
+```
+
+## Fix
+Use a pull-down of 10 kΩ–100 kΩ, at least a hundred times the series gate
+resistor.
+"#,
+};
+
+pub const RULE: Rule = Rule { meta: &META, check };
+
+fn check(ctx: &Ctx) -> Vec<Finding> {
+    let c = ctx.circuit;
+    let mut out = Vec::new();
+    let mut ids: Vec<_> = ctx.analysis.switches.keys().copied().collect();
+    ids.sort_unstable();
+    for sw in ids {
+        let Some(info) = ctx.analysis.switches.get(&sw) else {
+            continue;
+        };
+        let p = c.part(sw);
+        let pulls = super::pull_resistors(ctx, sw);
+        let anchor = |f: Finding| -> Finding {
+            let mut f = with_part(f, ctx, sw, "the switch it drives".into());
+            for &r in &pulls {
+                f = with_part(f, ctx, r, "pull resistor".into());
+            }
+            f
+        };
+        if let Some(((mcu, pin), i)) = &info.pin_current {
+            if let Some(imax) = c.part(*mcu).num("io_i_max") {
+                if *i > imax {
+                    let f = on_part(
+                        &META,
+                        ctx,
+                        *mcu,
+                        "overloaded pin",
+                        format!(
+                            "`{}.{pin}` sources {} into the gate network of `{}`, above its {} rating",
+                            ref_of(ctx, *mcu),
+                            a(*i),
+                            p.reference,
+                            a(imax)
+                        ),
+                    );
+                    out.push(anchor(f).help(format!(
+                        "raise the pull-down to 10 kΩ–100 kΩ so that the pin sources well under {}",
+                        a(imax)
+                    )));
+                    continue;
+                }
+            }
+        }
+        if !p.kind.is_mos() || info.controls.is_empty() {
+            continue;
+        }
+        let (Some(vneed), Some(vgs)) = (p.num("rds_on_vgs"), info.v_gs_on) else {
+            continue;
+        };
+        let level = info
+            .controls
+            .iter()
+            .map(|((m, _), _)| crate::analysis::states::io_v(c, *m))
+            .fold(0.0f64, f64::max);
+        // only a direct drive from the pin, where the pin level is enough
+        let direct = c.part(info.controls[0].0.0).pins.iter().any(|x| {
+            ctx.graph.island_of.get(x.net).copied().flatten()
+                == p.net_of("g")
+                    .and_then(|g| ctx.graph.island_of.get(g).copied().flatten())
+        });
+        if direct && !p.kind.is_p_type() && level >= vneed && vgs < vneed && !pulls.is_empty() {
+            let f = on_part(
+                &META,
+                ctx,
+                pulls[0],
+                "divides the gate drive",
+                format!(
+                    "the gate network divides the {} pin level to {} at `{}`, below the {} at which its R_DS(on) is specified",
+                    v(level),
+                    v(vgs),
+                    p.reference,
+                    v(vneed)
+                ),
+            );
+            out.push(
+                anchor(f).help(
+                    "use a pull-down of 10 kΩ–100 kΩ, at least 100× the series gate resistor",
+                ),
+            );
+        }
+    }
+    out
+}

@@ -1,0 +1,53 @@
+//! Gate and base drive rules.
+
+pub mod base_unlimited;
+pub mod gate_drive_low;
+pub mod gate_floating;
+pub mod gate_overvoltage;
+pub mod gate_pulldown_strong;
+pub mod gate_stuck_on;
+
+use super::Ctx;
+use super::Rule;
+use crate::model::{Kind, PartId};
+
+pub fn rules() -> Vec<Rule> {
+    vec![
+        gate_floating::RULE,
+        gate_pulldown_strong::RULE,
+        gate_drive_low::RULE,
+        gate_overvoltage::RULE,
+        gate_stuck_on::RULE,
+        base_unlimited::RULE,
+    ]
+}
+
+/// Resistors in a switch's gate network that go to its reference net or
+/// to a fixed net (pull-downs and pull-ups).
+pub fn pull_resistors(ctx: &Ctx, sw: PartId) -> Vec<PartId> {
+    let c = ctx.circuit;
+    let a = ctx.analysis;
+    let p = c.part(sw);
+    let Some((_, ctl, r)) = p.kind.switch_pins() else {
+        return Vec::new();
+    };
+    let (Some(g), Some(rn)) = (p.net_of(ctl), p.net_of(r)) else {
+        return Vec::new();
+    };
+    let Some(gi) = ctx.graph.island_of.get(g).copied().flatten() else {
+        return Vec::new();
+    };
+    let island = &ctx.graph.islands[gi];
+    let _ = a;
+    c.parts
+        .iter()
+        .enumerate()
+        .filter(|(_, q)| q.kind == Kind::Resistor)
+        .filter(|(_, q)| {
+            let nets: Vec<usize> = q.pins.iter().map(|x| x.net).collect();
+            nets.iter().any(|n| island.contains(n))
+                && nets.iter().any(|&n| n == rn || c.net(n).is_fixed())
+        })
+        .map(|(i, _)| i)
+        .collect()
+}

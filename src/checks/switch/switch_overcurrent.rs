@@ -1,0 +1,113 @@
+use crate::checks::common::*;
+use crate::checks::{Ctx, Rule, RuleMeta};
+use crate::finding::{Finding, Severity};
+
+pub static META: RuleMeta = RuleMeta {
+    id: "switch-overcurrent",
+    family: "switch",
+    severity: Severity::Error,
+    summary: "the load's worst-case (stall) current exceeds the switch's current rating",
+    hazard: true,
+    docs: r#"## What it checks
+The current a switch carries with its load stalled stays within its
+current rating (`id_max`, `ic_max`) times the current derating (default
+80 %).
+
+## Why it matters
+Every start of a motor passes through stall, and a jammed actuator stays
+there: the winding is then only its resistance, and the current is many
+times the running current. A switch sized for the running current fails
+on the first jam.
+
+## How it is computed
+The pin state that drives the load is solved with the load at stall (its
+back-EMF zero, its winding at `r·(1 - r_tol)`) and the rail at its
+maximum: `I_stall = V_rail / (R_winding + R_on)`. A load whose `i_stall`
+is given uses it.
+
+## Example
+```
+motor M3 (+: VBAT, -: PUMP_SW) r=3ohm l=1mH i_rated=1A   # stall 4.8 A at 14.4 V
+nmos  Q3 (d: PUMP_SW, g: PUMP_G, s: GND) part=DEMO-N60-3A  # 3 A
+```
+Fixed:
+```
+nmos  Q3 (d: PUMP_SW, g: PUMP_G, s: GND) part=DEMO-N40-12A
+```
+
+## Fix
+Choose a switch rated at least the current in the help line, or limit the
+stall current (a current-sense cut-off, a series resistance).
+"#,
+};
+
+pub const RULE: Rule = Rule { meta: &META, check };
+
+fn check(ctx: &Ctx) -> Vec<Finding> {
+    let d = &ctx.settings.derating;
+    let mut out = Vec::new();
+    for (i, p) in ctx.circuit.parts.iter().enumerate() {
+        if !p.kind.is_switch() {
+            continue;
+        }
+        let Some(ion) = ctx.analysis.facts.value(i, "i_on") else {
+            continue;
+        };
+        let Some(rating) = p.num("id_max").or(p.num("ic_max")) else {
+            continue;
+        };
+        let limit = rating * d.current;
+        if ion <= limit {
+            continue;
+        }
+        let load = ctx
+            .analysis
+            .turnoffs
+            .iter()
+            .find(|t| t.switch == i)
+            .map(|t| t.load);
+        let why = load
+            .and_then(|l| {
+                let lp = ctx.circuit.part(l);
+                let r = lp.num("r")? * (1.0 - lp.num("r_tol").unwrap_or(0.0));
+                let vr = [lp.net_of("+"), lp.net_of("-")]
+                    .into_iter()
+                    .flatten()
+                    .filter_map(|n| ctx.circuit.net(n).fixed_max())
+                    .fold(0.0f64, |x, y| x.max(y.abs()));
+                if lp.num("i_stall").is_some() {
+                    Some(format!("given stall current of `{}`", lp.reference))
+                } else {
+                    Some(format!(
+                        "stall of `{}` ≈ {} / {}",
+                        lp.reference,
+                        v(vr),
+                        ohm(r)
+                    ))
+                }
+            })
+            .unwrap_or_else(|| "worst-case on-state current".to_string());
+        let mut f = on_part(
+            &META,
+            ctx,
+            i,
+            "current rating too low",
+            format!(
+                "{} ({why}) exceeds {} of `{}`'s {} rating ({})",
+                a(ion),
+                pct(d.current),
+                p.reference,
+                a(rating),
+                a(limit)
+            ),
+        );
+        if let Some(l) = load {
+            f = with_part(f, ctx, l, "the load at stall".into());
+        }
+        out.push(f.help(format!(
+            "use a switch rated at least {} continuous, or limit the stall current",
+            a(ion / d.current)
+        )));
+    }
+    out
+}
