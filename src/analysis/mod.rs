@@ -113,6 +113,15 @@ impl std::fmt::Debug for Group {
     }
 }
 
+/// The largest rail voltage on a load's pins or its switches' pins.
+fn supply_of(c: &Circuit, load: PartId, switches: &[PartId]) -> f64 {
+    std::iter::once(load)
+        .chain(switches.iter().copied())
+        .flat_map(|q| c.part(q).pins.iter())
+        .filter_map(|p| c.net(p.net).fixed_max())
+        .fold(0.0f64, |a, b| a.max(b.abs()))
+}
+
 /// Pins tied to pin `k` by a `complement` declaration.
 fn partners(c: &Circuit, pins: &[CtlPin], k: usize) -> Vec<usize> {
     let Some(me) = pins.get(k) else {
@@ -408,11 +417,13 @@ fn analyse_loads(
         let (i_stall, stall_note) = match lp.num("i_stall") {
             Some(i) => (i, "given `i_stall`".to_string()),
             None => {
-                let v = c
-                    .net(np)
-                    .fixed_max()
-                    .or(c.net(nm).fixed_max())
-                    .unwrap_or(0.0);
+                let all_sw: Vec<PartId> = grp
+                    .parts
+                    .iter()
+                    .copied()
+                    .filter(|&q| c.part(q).kind.is_switch())
+                    .collect();
+                let v = supply_of(c, lid, &all_sw);
                 (
                     solved,
                     format!(
@@ -496,12 +507,7 @@ fn analyse_loads(
         a.facts.set(lid, "f_pwm", f_pwm.0, Frequency, None);
         if f_pwm.0 > 0.0 {
             if let (Some(l), Some(r)) = (lp.num("l"), lp.num("r")) {
-                let v = c
-                    .net(np)
-                    .fixed_max()
-                    .or(c.net(nm).fixed_max())
-                    .unwrap_or(0.0)
-                    .abs();
+                let v = supply_of(c, lid, &switches);
                 let d = if f_pwm.1 >= 0.5 {
                     0.5
                 } else {
