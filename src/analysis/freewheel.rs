@@ -127,6 +127,7 @@ pub fn turn_off(
     st: &StateResult,
     load: PartId,
     switch: PartId,
+    off: &[PartId],
     i0: f64,
 ) -> TurnOff {
     let lp = c.part(load);
@@ -192,7 +193,9 @@ pub fn turn_off(
             }
             Kind::Nmos | Kind::Pmos => {
                 if let (Some(d), Some(s)) = (n("d"), n("s")) {
-                    let on = pid != switch && st.switch_on.get(&pid).copied().unwrap_or(false);
+                    let on = pid != switch
+                        && !off.contains(&pid)
+                        && st.switch_on.get(&pid).copied().unwrap_or(false);
                     if on {
                         let v = i0 * states::rds_on(c, pid);
                         add(d, s, v, pid);
@@ -209,7 +212,10 @@ pub fn turn_off(
             }
             Kind::Npn | Kind::Pnp => {
                 if let (Some(cn), Some(e)) = (n("c"), n("e")) {
-                    if pid != switch && st.switch_on.get(&pid).copied().unwrap_or(false) {
+                    if pid != switch
+                        && !off.contains(&pid)
+                        && st.switch_on.get(&pid).copied().unwrap_or(false)
+                    {
                         let v = p.num("vce_sat").unwrap_or(0.2);
                         if p.kind == Kind::Npn {
                             add(cn, e, v, pid);

@@ -543,7 +543,7 @@ fn analyse_loads(
                     Current,
                     Some(format!("`{}`: {cont_note}", lp.reference)),
                 );
-                let t = freewheel::turn_off(c, s, grp, st, lid, q, i_q);
+                let t = freewheel::turn_off(c, s, grp, st, lid, q, &[], i_q);
                 if let Some(path) = &t.path {
                     for &d in &path.parts {
                         if c.part(d).kind.is_diode() {
@@ -579,6 +579,26 @@ fn analyse_loads(
                         .set(q, "v_peak", t.v_peak, Voltage, Some(t.v_peak_note.clone()));
                 }
                 a.turnoffs.push(t);
+            }
+            // every switch of the load off at once (a reset while it runs)
+            if sw.len() >= 2 {
+                let i_all = st.current.get(&lid).copied().unwrap_or(0.0).abs() * scale;
+                for &q in sw {
+                    let t = freewheel::turn_off(c, s, grp, st, lid, q, sw, i_all);
+                    if a.facts.value(q, "v_peak").is_none_or(|v| t.v_peak > v) {
+                        a.facts.set(
+                            q,
+                            "v_peak",
+                            t.v_peak,
+                            Voltage,
+                            Some(format!(
+                                "all switches of `{}` off: {}",
+                                lp.reference, t.v_peak_note
+                            )),
+                        );
+                    }
+                    a.turnoffs.push(t);
+                }
             }
         }
         a.loads.push(LoadInfo {

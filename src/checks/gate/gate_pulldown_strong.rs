@@ -62,6 +62,15 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
             }
             f
         };
+        // a base straight on the pin is `base-unlimited`'s finding
+        let base_on_pin = p.kind.is_bipolar()
+            && info
+                .pin_current
+                .as_ref()
+                .is_some_and(|((m, pin), _)| c.part(*m).net_of(pin) == p.net_of("b"));
+        if base_on_pin {
+            continue;
+        }
         if let Some(((mcu, pin), i)) = &info.pin_current {
             if let Some(imax) = c.part(*mcu).num("io_i_max") {
                 if *i > imax {
