@@ -146,7 +146,10 @@ impl Renderer {
     /// ASCII, no colour: the form used in snapshots.
     pub fn plain() -> Renderer {
         Renderer {
-            handler: GraphicalReportHandler::new_themed(GraphicalTheme::ascii())
+            handler: GraphicalReportHandler::new_themed(GraphicalTheme {
+                characters: miette::ThemeCharacters::ascii(),
+                styles: miette::ThemeStyles::none(),
+            })
                 .with_width(100)
                 .with_links(false)
                 .with_context_lines(1),

@@ -1,0 +1,148 @@
+//! The command line: exit codes, formats, commands.
+
+use assert_cmd::Command;
+
+fn armature() -> Command {
+    match Command::cargo_bin("armature") {
+        Ok(c) => c,
+        Err(e) => panic!("{e}"),
+    }
+}
+
+fn stdout(args: &[&str]) -> (i32, String, String) {
+    let out = match armature().args(args).output() {
+        Ok(o) => o,
+        Err(e) => panic!("{e}"),
+    };
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+#[test]
+fn clean_sample_exits_0() {
+    for f in ["samples/vent_fan.drive", "samples/irrigation_valve.drive", "samples/window_actuator.drive", "samples/conveyor_driver.drive"] {
+        let (code, out, _) = stdout(&["check", f]);
+        assert_eq!(code, 0, "{f}: {out}");
+        assert!(out.contains("1 file checked: 0 errors"), "{out}");
+    }
+}
+
+#[test]
+fn faulty_sample_exits_1() {
+    let (code, _, _) = stdout(&["check", "samples/alarm_relay_faulty.drive"]);
+    assert_eq!(code, 1);
+}
+
+#[test]
+fn warnings_fail_only_with_fail_on_warning() {
+    let f = "tests/fixtures/rules/bulk-cap-missing/bad.drive";
+    assert_eq!(stdout(&["check", f]).0, 0);
+    assert_eq!(stdout(&["check", f, "--fail-on", "warning"]).0, 1);
+}
+
+#[test]
+fn input_errors_exit_2() {
+    let dir = tempdir();
+    let bad = dir.join("bad.drive");
+    let _ = std::fs::write(&bad, "rail VBAT 12V\nmotor M1 (+ VBAT\n");
+    let (code, out, _) = stdout(&["check", bad.to_str().unwrap_or(""), "--format", "compact"]);
+    assert_eq!(code, 2);
+    assert!(out.contains(":2:"), "{out}");
+    assert!(out.contains("error[parse-error]"), "{out}");
+    let (code, out, _) = stdout(&["check", "no/such/file.drive", "--format", "json"]);
+    assert_eq!(code, 2);
+    assert!(out.contains("file-error"), "{out}");
+    let nolib = dir.join("nolib.drive");
+    let _ = std::fs::write(&nolib, "library \"missing.yaml\"\nground GND\n");
+    let (code, out, _) = stdout(&["check", nolib.to_str().unwrap_or(""), "--format", "compact"]);
+    assert_eq!(code, 2);
+    assert!(out.contains("nolib.drive:1:9: error[library-error]"), "{out}");
+    let libdir = dir.join("libdir.drive");
+    let _ = std::fs::create_dir_all(dir.join("adir.yaml"));
+    let _ = std::fs::write(&libdir, "library \"adir.yaml\"\n");
+    let (code, out, _) = stdout(&["check", libdir.to_str().unwrap_or(""), "--format", "compact"]);
+    assert_eq!(code, 2);
+    assert!(out.contains("is a folder"), "{out}");
+}
+
+#[test]
+fn compact_format_is_file_line_col_severity_rule_message() {
+    let (_, out, _) = stdout(&["check", "samples/structure_faulty.drive", "--format", "compact"]);
+    let first = out.lines().next().unwrap_or("");
+    assert_eq!(
+        first,
+        "samples/structure_faulty.drive:12:25: warning[single-pin-net]: net `LIGHT_GATE` connects only to `R1`"
+    );
+}
+
+#[test]
+fn json_format_has_the_contract_fields() {
+    let (code, out, _) = stdout(&["check", "samples/alarm_relay_faulty.drive", "--format", "json"]);
+    assert_eq!(code, 1);
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap_or_default();
+    let f = &v["findings"][0];
+    for k in ["rule", "severity", "file", "line", "column", "parts", "message", "help"] {
+        assert!(!f[k].is_null(), "missing {k} in {f}");
+    }
+    assert!(v["summary"]["errors"].as_u64().unwrap_or(0) > 0);
+    assert_eq!(v["summary"]["files"], 1);
+    assert_eq!(v["derating"]["voltage"], 0.8);
+    assert_eq!(v["derating"]["gate_voltage"], 0.7);
+}
+
+#[test]
+fn folders_are_checked_sorted() {
+    let (_, out, _) = stdout(&["check", "samples", "--format", "compact"]);
+    let files: Vec<&str> = out.lines().filter_map(|l| l.split(':').next()).collect();
+    let mut sorted = files.clone();
+    sorted.sort();
+    assert_eq!(files, sorted);
+    let (_, out, _) = stdout(&["check", "samples"]);
+    assert!(out.contains("6 files checked"), "{out}");
+}
+
+#[test]
+fn explain_and_rules() {
+    let (code, out, _) = stdout(&["explain", "freewheel-missing"]);
+    assert_eq!(code, 0);
+    for h in ["What it checks", "Why it matters", "How it is computed", "Example", "Fix", "Caution"] {
+        assert!(out.contains(h), "{h}");
+    }
+    let (code, _, err) = stdout(&["explain", "no-such-rule"]);
+    assert_eq!(code, 2);
+    assert!(err.contains("freewheel-missing"), "{err}");
+    let (code, out, _) = stdout(&["rules"]);
+    assert_eq!(code, 0);
+    assert!(out.lines().count() >= 25);
+}
+
+#[test]
+fn facts_json_has_the_contract_shape() {
+    let (code, out, _) = stdout(&["facts", "samples/vent_fan.drive", "--format", "json"]);
+    assert_eq!(code, 0);
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap_or_default();
+    assert_eq!(v["file"], "samples/vent_fan.drive");
+    let q1 = &v["parts"]["Q1"];
+    assert_eq!(q1["i_on"]["unit"], "A");
+    assert_eq!(q1["v_peak"]["unit"], "V");
+    // stall = 14.4 V / (8.5 Ω · 0.9 + 0.12 Ω) = 1.853 A
+    let i = q1["i_on"]["value"].as_f64().unwrap_or(0.0);
+    assert!((i - 14.4 / (8.5 * 0.9 + 0.12)).abs() < 1e-3, "{i}");
+    assert_eq!(q1["tj"]["unit"], "degC");
+}
+
+fn tempdir() -> std::path::PathBuf {
+    let d = std::env::temp_dir().join(format!("armature-cli-{}-{}", std::process::id(), rand_suffix()));
+    let _ = std::fs::create_dir_all(&d);
+    d
+}
+
+fn rand_suffix() -> u128 {
+    std::time::SystemTime::now()
+        .duration_since(std::time::UNIX_EPOCH)
+        .map(|d| d.as_nanos())
+        .unwrap_or(0)
+}
