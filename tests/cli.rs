@@ -23,7 +23,12 @@ fn stdout(args: &[&str]) -> (i32, String, String) {
 
 #[test]
 fn clean_sample_exits_0() {
-    for f in ["samples/vent_fan.drive", "samples/irrigation_valve.drive", "samples/window_actuator.drive", "samples/conveyor_driver.drive"] {
+    for f in [
+        "samples/vent_fan.drive",
+        "samples/irrigation_valve.drive",
+        "samples/window_actuator.drive",
+        "samples/conveyor_driver.drive",
+    ] {
         let (code, out, _) = stdout(&["check", f]);
         assert_eq!(code, 0, "{f}: {out}");
         assert!(out.contains("1 file checked: 0 errors"), "{out}");
@@ -59,18 +64,31 @@ fn input_errors_exit_2() {
     let _ = std::fs::write(&nolib, "library \"missing.yaml\"\nground GND\n");
     let (code, out, _) = stdout(&["check", nolib.to_str().unwrap_or(""), "--format", "compact"]);
     assert_eq!(code, 2);
-    assert!(out.contains("nolib.drive:1:9: error[library-error]"), "{out}");
+    assert!(
+        out.contains("nolib.drive:1:9: error[library-error]"),
+        "{out}"
+    );
     let libdir = dir.join("libdir.drive");
     let _ = std::fs::create_dir_all(dir.join("adir.yaml"));
     let _ = std::fs::write(&libdir, "library \"adir.yaml\"\n");
-    let (code, out, _) = stdout(&["check", libdir.to_str().unwrap_or(""), "--format", "compact"]);
+    let (code, out, _) = stdout(&[
+        "check",
+        libdir.to_str().unwrap_or(""),
+        "--format",
+        "compact",
+    ]);
     assert_eq!(code, 2);
     assert!(out.contains("is a folder"), "{out}");
 }
 
 #[test]
 fn compact_format_is_file_line_col_severity_rule_message() {
-    let (_, out, _) = stdout(&["check", "samples/structure_faulty.drive", "--format", "compact"]);
+    let (_, out, _) = stdout(&[
+        "check",
+        "samples/structure_faulty.drive",
+        "--format",
+        "compact",
+    ]);
     let first = out.lines().next().unwrap_or("");
     assert_eq!(
         first,
@@ -80,11 +98,18 @@ fn compact_format_is_file_line_col_severity_rule_message() {
 
 #[test]
 fn json_format_has_the_contract_fields() {
-    let (code, out, _) = stdout(&["check", "samples/alarm_relay_faulty.drive", "--format", "json"]);
+    let (code, out, _) = stdout(&[
+        "check",
+        "samples/alarm_relay_faulty.drive",
+        "--format",
+        "json",
+    ]);
     assert_eq!(code, 1);
     let v: serde_json::Value = serde_json::from_str(&out).unwrap_or_default();
     let f = &v["findings"][0];
-    for k in ["rule", "severity", "file", "line", "column", "parts", "message", "help"] {
+    for k in [
+        "rule", "severity", "file", "line", "column", "parts", "message", "help",
+    ] {
         assert!(!f[k].is_null(), "missing {k} in {f}");
     }
     assert!(v["summary"]["errors"].as_u64().unwrap_or(0) > 0);
@@ -108,7 +133,14 @@ fn folders_are_checked_sorted() {
 fn explain_and_rules() {
     let (code, out, _) = stdout(&["explain", "freewheel-missing"]);
     assert_eq!(code, 0);
-    for h in ["What it checks", "Why it matters", "How it is computed", "Example", "Fix", "Caution"] {
+    for h in [
+        "What it checks",
+        "Why it matters",
+        "How it is computed",
+        "Example",
+        "Fix",
+        "Caution",
+    ] {
         assert!(out.contains(h), "{h}");
     }
     let (code, _, err) = stdout(&["explain", "no-such-rule"]);
@@ -135,7 +167,11 @@ fn facts_json_has_the_contract_shape() {
 }
 
 fn tempdir() -> std::path::PathBuf {
-    let d = std::env::temp_dir().join(format!("armature-cli-{}-{}", std::process::id(), rand_suffix()));
+    let d = std::env::temp_dir().join(format!(
+        "armature-cli-{}-{}",
+        std::process::id(),
+        rand_suffix()
+    ));
     let _ = std::fs::create_dir_all(&d);
     d
 }

@@ -34,8 +34,16 @@ fn every_rule_has_documentation_with_the_fixed_headings() {
             assert!(r.meta.docs.contains(h), "{} lacks `{h}`", r.meta.id);
         }
         assert!(!r.meta.summary.is_empty(), "{}", r.meta.id);
-        assert!(!r.meta.summary.ends_with('.'), "{}: summary ends with a period", r.meta.id);
-        assert!(r.meta.docs.contains("```"), "{}: no example snippet", r.meta.id);
+        assert!(
+            !r.meta.summary.ends_with('.'),
+            "{}: summary ends with a period",
+            r.meta.id
+        );
+        assert!(
+            r.meta.docs.contains("```"),
+            "{}: no example snippet",
+            r.meta.id
+        );
     }
 }
 
@@ -43,11 +51,31 @@ fn every_rule_has_documentation_with_the_fixed_headings() {
 fn every_rule_id_of_the_contract_is_registered() {
     let ids: Vec<&str> = checks::registry().iter().map(|r| r.meta.id).collect();
     for id in [
-        "freewheel-missing", "freewheel-reversed", "freewheel-diode-underrated", "freewheel-diode-slow",
-        "freewheel-via-supply", "clamp-overvoltage", "gate-floating", "gate-pulldown-strong", "gate-drive-low",
-        "gate-overvoltage", "gate-stuck-on", "base-unlimited", "switch-overcurrent", "switch-overvoltage",
-        "switch-overheat", "shoot-through", "dead-time-short", "unknown-part", "unknown-pin", "unconnected-pin",
-        "single-pin-net", "duplicate-ref", "shorted-part", "rail-short", "bulk-cap-missing",
+        "freewheel-missing",
+        "freewheel-reversed",
+        "freewheel-diode-underrated",
+        "freewheel-diode-slow",
+        "freewheel-via-supply",
+        "clamp-overvoltage",
+        "gate-floating",
+        "gate-pulldown-strong",
+        "gate-drive-low",
+        "gate-overvoltage",
+        "gate-stuck-on",
+        "base-unlimited",
+        "switch-overcurrent",
+        "switch-overvoltage",
+        "switch-overheat",
+        "shoot-through",
+        "dead-time-short",
+        "unknown-part",
+        "unknown-pin",
+        "unconnected-pin",
+        "single-pin-net",
+        "duplicate-ref",
+        "shorted-part",
+        "rail-short",
+        "bulk-cap-missing",
     ] {
         assert!(ids.contains(&id), "{id} is not registered");
     }
@@ -58,16 +86,35 @@ fn every_bad_fixture_fires_its_rule_and_every_good_one_does_not() {
     for r in checks::registry() {
         let id = r.meta.id;
         let files = fixtures(id);
-        assert!(files.iter().any(|f| f.ends_with("bad.drive")), "{id}: no bad.drive");
-        assert!(files.iter().any(|f| f.ends_with("good.drive")), "{id}: no good.drive");
+        assert!(
+            files.iter().any(|f| f.ends_with("bad.drive")),
+            "{id}: no bad.drive"
+        );
+        assert!(
+            files.iter().any(|f| f.ends_with("good.drive")),
+            "{id}: no good.drive"
+        );
         for f in files {
             let (fired, res) = rules_fired(&f);
-            assert!(!res.input_error(), "{}: input error {:?}", f.display(), res.findings.iter().map(|x| &x.message).collect::<Vec<_>>());
+            assert!(
+                !res.input_error(),
+                "{}: input error {:?}",
+                f.display(),
+                res.findings.iter().map(|x| &x.message).collect::<Vec<_>>()
+            );
             let name = f.file_stem().and_then(|s| s.to_str()).unwrap_or("");
             if name == "good" || name.starts_with("ok-") || name == "pulldown-before-resistor" {
-                assert!(fired.is_empty(), "{}: a clean fixture fired {fired:?}", f.display());
+                assert!(
+                    fired.is_empty(),
+                    "{}: a clean fixture fired {fired:?}",
+                    f.display()
+                );
             } else {
-                assert!(fired.iter().any(|x| x == id), "{}: expected {id}, got {fired:?}", f.display());
+                assert!(
+                    fired.iter().any(|x| x == id),
+                    "{}: expected {id}, got {fired:?}",
+                    f.display()
+                );
             }
         }
     }
@@ -78,16 +125,33 @@ fn snapshots_of_every_faulty_fixture() {
     let r = Renderer::plain();
     for rule in checks::registry() {
         for f in fixtures(rule.meta.id) {
-            let name = f.file_stem().and_then(|s| s.to_str()).unwrap_or("x").to_string();
+            let name = f
+                .file_stem()
+                .and_then(|s| s.to_str())
+                .unwrap_or("x")
+                .to_string();
             if name == "good" {
                 continue;
             }
             let (_, res) = rules_fired(&f);
-            let human: String = res.findings.iter().map(|x| r.render(x)).collect::<Vec<_>>().join("\n");
-            let json = armature::report::json::document(&res.findings, 1, res.suppressed, &res.settings.derating);
+            let human: String = res
+                .findings
+                .iter()
+                .map(|x| r.render(x))
+                .collect::<Vec<_>>()
+                .join("\n");
+            let json = armature::report::json::document(
+                &res.findings,
+                1,
+                res.suppressed,
+                &res.settings.derating,
+            );
             let key = format!("{}__{}", rule.meta.id, name);
             insta::assert_snapshot!(format!("{key}__human"), human);
-            insta::assert_snapshot!(format!("{key}__json"), serde_json::to_string_pretty(&json).unwrap_or_default());
+            insta::assert_snapshot!(
+                format!("{key}__json"),
+                serde_json::to_string_pretty(&json).unwrap_or_default()
+            );
         }
     }
 }

@@ -257,6 +257,12 @@ pub fn turn_off(
         }
     }
     let on_v = |net: NetId| -> f64 { st.v(c, net).unwrap_or(0.0) };
+    // nets off the path settle where the off state puts them (a source
+    // resistor carries no current once the switch is open)
+    let mut forced: Vec<PartId> = off.to_vec();
+    forced.push(switch);
+    let off_st = states::solve_state_forced(c, grp, &st.assignment, &forced);
+    let off_v = |net: NetId| -> f64 { off_st.v(c, net).unwrap_or_else(|| on_v(net)) };
     let sp = c.part(switch);
     let (main_pin, _, ref_pin) = sp.kind.switch_pins().unwrap_or(("d", "g", "s"));
     let (sm, sr) = (
@@ -318,7 +324,7 @@ pub fn turn_off(
                 } else if n == enter {
                     v_enter
                 } else {
-                    c.net(n).fixed_max().unwrap_or_else(|| on_v(n))
+                    c.net(n).fixed_max().unwrap_or_else(|| off_v(n))
                 }
             };
             let v_peak = (pot(sm) - pot(sr)).abs();
@@ -345,6 +351,8 @@ pub fn turn_off(
                 v_peak,
                 v_peak_note: note,
                 rail,
+                also_off: off.to_vec(),
+                others_on: others_on(grp, st, switch, off),
             }
         }
         None => {
@@ -366,7 +374,19 @@ pub fn turn_off(
                     }
                 ),
                 rail,
+                also_off: off.to_vec(),
+                others_on: others_on(grp, st, switch, off),
             }
         }
     }
+}
+
+fn others_on(grp: &Group, st: &StateResult, switch: PartId, off: &[PartId]) -> Vec<PartId> {
+    grp.parts
+        .iter()
+        .copied()
+        .filter(|&q| {
+            q != switch && !off.contains(&q) && st.switch_on.get(&q).copied().unwrap_or(false)
+        })
+        .collect()
 }

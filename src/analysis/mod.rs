@@ -6,6 +6,7 @@ pub mod facts;
 pub mod freewheel;
 pub mod physics;
 pub mod solve;
+pub mod spice;
 pub mod states;
 
 pub use facts::{Fact, Facts};
@@ -70,6 +71,10 @@ pub struct TurnOff {
     pub v_peak: f64,
     pub v_peak_note: String,
     pub rail: Option<NetId>,
+    /// Switches forced off with it (a bridge reset), besides `switch`.
+    pub also_off: Vec<PartId>,
+    /// Switches that stay on while it opens.
+    pub others_on: Vec<PartId>,
 }
 
 /// Two switches in series between two fixed nets, sharing a midpoint.

@@ -271,6 +271,17 @@ pub fn solve_state(
     assign: &[PinState],
     force_off: Option<PartId>,
 ) -> StateResult {
+    let v: Vec<PartId> = force_off.into_iter().collect();
+    solve_state_forced(c, grp, assign, &v)
+}
+
+/// Solve a group with some switches held off whatever their gates say.
+pub fn solve_state_forced(
+    c: &Circuit,
+    grp: &Group,
+    assign: &[PinState],
+    force_off: &[PartId],
+) -> StateResult {
     let fixed: Vec<(NetId, f64)> = c
         .nets
         .iter()
@@ -319,7 +330,7 @@ pub fn solve_state(
         for &pid in &grp.parts {
             let p = c.part(pid);
             if p.kind.is_switch() {
-                let on = if Some(pid) == force_off {
+                let on = if force_off.contains(&pid) {
                     false
                 } else {
                     let ctl_net = p.kind.switch_pins().and_then(|(_, ctl, _)| p.net_of(ctl));

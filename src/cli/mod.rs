@@ -37,10 +37,29 @@ pub enum Command {
         common: CommonArgs,
     },
     /// Print the computed quantities of every part of a netlist
+    /// Export a simulator testbench
+    Export {
+        #[command(subcommand)]
+        what: ExportWhat,
+    },
     Facts {
         path: PathBuf,
         #[arg(long, value_enum, default_value_t = FactsFormat::Human)]
         format: FactsFormat,
+        #[command(flatten)]
+        common: CommonArgs,
+    },
+}
+
+#[derive(Subcommand, Debug)]
+pub enum ExportWhat {
+    /// An ngspice deck around one switch, with .meas lines for its on-state
+    /// current and its peak voltage at turn-off
+    Spice {
+        file: PathBuf,
+        /// The switch (default: the first switch of an inductive load)
+        #[arg(long)]
+        part: Option<String>,
         #[command(flatten)]
         common: CommonArgs,
     },
@@ -124,6 +143,9 @@ pub fn run(args: Vec<String>) -> i32 {
             format,
             common,
         } => facts(&path, format, &common),
+        Command::Export {
+            what: ExportWhat::Spice { file, part, common },
+        } => export_spice(&file, part.as_deref(), &common),
     }
 }
 
@@ -374,6 +396,55 @@ fn facts(path: &Path, format: FactsFormat, common: &CommonArgs) -> i32 {
                 FactsFormat::Human => print!("{}", crate::analysis::facts_human(&b)),
             }
             0
+        }
+    }
+}
+
+fn export_spice(path: &Path, part: Option<&str>, common: &CommonArgs) -> i32 {
+    let opts = base_options(common);
+    let cache = LibraryCache::default();
+    let shown = crate::shown_path(path);
+    let r = report::human::Renderer::new(false);
+    let file = match crate::read_netlist(path, &shown) {
+        Ok(f) => f,
+        Err(f) => {
+            eprint!("{}", r.render(&f));
+            return 2;
+        }
+    };
+    let b = match crate::build(&file, &opts, &cache) {
+        Ok(b) => b,
+        Err(errs) => {
+            for e in errs {
+                eprint!("{}", r.render(&e));
+            }
+            return 2;
+        }
+    };
+    let sw = match part {
+        Some(name) => match b.circuit.part_id(name) {
+            Some(id) => id,
+            None => {
+                eprintln!("error: `{name}` is not a part of {shown}");
+                return 2;
+            }
+        },
+        None => match b.analysis.turnoffs.first() {
+            Some(t) => t.switch,
+            None => {
+                eprintln!("error: {shown} has no switch under an inductive load");
+                return 2;
+            }
+        },
+    };
+    match crate::analysis::spice::deck(&b.circuit, &b.graph, &b.analysis, sw) {
+        Ok(d) => {
+            print!("{d}");
+            0
+        }
+        Err(e) => {
+            eprintln!("error: {e}");
+            2
         }
     }
 }

@@ -150,9 +150,9 @@ impl Renderer {
                 characters: miette::ThemeCharacters::ascii(),
                 styles: miette::ThemeStyles::none(),
             })
-                .with_width(100)
-                .with_links(false)
-                .with_context_lines(1),
+            .with_width(100)
+            .with_links(false)
+            .with_context_lines(1),
         }
     }
 

@@ -119,7 +119,7 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
                 pulls[0],
                 "divides the gate drive",
                 format!(
-                    "the gate network divides the {} pin level to {} at `{}`, below the {} at which its R_DS(on) is specified",
+                    "the gate network leaves `{2}` with {1} of V_GS from a {0} pin, below the {3} at which its R_DS(on) is specified",
                     v(level),
                     v(vgs),
                     p.reference,
