@@ -271,6 +271,11 @@ pub fn parse(text: &str) -> Result<Quantity, UnitError> {
     if !n.is_finite() {
         return Err(UnitError::OutOfRange);
     }
+    // an underflow to zero of a number that is not zero
+    let mantissa = num.split(['e', 'E']).next().unwrap_or("");
+    if n == 0.0 && mantissa.chars().any(|c| c.is_ascii_digit() && c != '0') {
+        return Err(UnitError::OutOfRange);
+    }
     let (dim, k, kelvin) = parse_suffix(suffix)?;
     let mut v = n * k;
     if kelvin {

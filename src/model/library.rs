@@ -1,7 +1,7 @@
 //! Parts libraries (YAML): `parts: NAME: {kind: …, key: value}`.
 
 use super::kinds::{KeyType, Kind};
-use super::{Origin, Param, ParamValue, interpret};
+use super::{Origin, Param, ParamValue};
 use crate::finding::Finding;
 use crate::source::{SourceFile, Span};
 use crate::suggest;
@@ -307,7 +307,7 @@ fn load_part(doc: &YamlDoc, name: &str, body: &Value) -> Result<LibPart, Vec<Fin
             ));
             continue;
         };
-        match interpret(def.ty, &text) {
+        match super::interpret_key(def.name, def.ty, &text) {
             Ok(value) => params.push(Param {
                 key: def.name,
                 value,

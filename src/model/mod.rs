@@ -40,13 +40,34 @@ pub struct Param {
     pub span: Span,
 }
 
+/// Keys whose value must be above zero.
+const POSITIVE: &[&str] = &[
+    "r", "l", "rds_on", "rth_ja", "hfe_min", "io_v", "r_out", "vz", "v_clamp",
+];
+
 /// Read a value's text for a key of a given type.
 pub fn interpret(ty: KeyType, text: &str) -> Result<ParamValue, String> {
+    interpret_key("", ty, text)
+}
+
+/// Read a value for a named key, with the key's sign constraints.
+pub fn interpret_key(key: &str, ty: KeyType, text: &str) -> Result<ParamValue, String> {
     match ty {
         KeyType::Word => Ok(ParamValue::Word(text.to_string())),
-        KeyType::Q(d) => units::parse_as(text, d)
-            .map(|q| ParamValue::Num(q.value))
-            .map_err(|e| e.to_string()),
+        KeyType::Q(d) => {
+            let q = units::parse_as(text, d).map_err(|e| e.to_string())?;
+            let signed = matches!(
+                d,
+                Dimension::Voltage | Dimension::Current | Dimension::Temperature
+            );
+            if !signed && q.value < 0.0 {
+                return Err(format!("{} must not be negative", d.article_name()));
+            }
+            if POSITIVE.contains(&key) && q.value <= 0.0 {
+                return Err(format!("`{key}` must be above zero"));
+            }
+            Ok(ParamValue::Num(q.value))
+        }
         KeyType::DeltaT => units::parse_delta_temperature(text)
             .map(|q| ParamValue::Num(q.value))
             .map_err(|e| e.to_string()),
@@ -384,7 +405,21 @@ impl Elab<'_> {
 
     fn part(&mut self, st: &ast::PartStmt, span: Span, line: usize) {
         let Some(kind) = Kind::from_name(&st.kind.node) else {
-            let hint = suggest::did_you_mean(&st.kind.node, Kind::ALL.iter().map(|k| k.name()));
+            let alias = match st.kind.node.to_ascii_lowercase().as_str() {
+                "mosfet" | "fet" | "nfet" | "nch" => Some("nmos"),
+                "pfet" | "pch" => Some("pmos"),
+                "bjt" | "transistor" => Some("npn"),
+                "coil" | "valve" => Some("solenoid"),
+                "cap" => Some("capacitor"),
+                "res" => Some("resistor"),
+                "ic" | "gatedriver" => Some("driver"),
+                "controller" | "micro" => Some("mcu"),
+                _ => None,
+            };
+            let hint = match alias {
+                Some(a) => format!("did you mean `{a}`?"),
+                None => suggest::did_you_mean(&st.kind.node, Kind::ALL.iter().map(|k| k.name())),
+            };
             self.err(
                 "unknown-kind",
                 st.kind.span,
@@ -615,7 +650,7 @@ impl Elab<'_> {
                 return None;
             }
         };
-        match interpret(def.ty, &text) {
+        match interpret_key(def.name, def.ty, &text) {
             Ok(value) => {
                 let value = match value {
                     ParamValue::Word(w) => ParamValue::Word(w.to_lowercase()),

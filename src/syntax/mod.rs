@@ -54,6 +54,11 @@ fn rule_name(rule: Rule) -> &'static str {
         Rule::word_char | Rule::word => "a word",
         Rule::value => "a value",
         Rule::param => "a `key=value` parameter",
+        Rule::comma => "`,`",
+        Rule::lparen => "`(`",
+        Rule::rparen => "`)`",
+        Rule::colon => "`:`",
+        Rule::equals => "`=`",
         Rule::design_stmt => "a `design` statement",
         Rule::library_stmt => "a `library` statement",
         Rule::ambient_stmt => "an `ambient` statement",
@@ -544,7 +549,7 @@ fn lower_part_stmt(
                 for e in q.into_inner() {
                     match e.as_rule() {
                         Rule::named_pin => {
-                            let mut it = e.into_inner();
+                            let mut it = e.into_inner().filter(|x| x.as_rule() != Rule::colon);
                             if let (Some(pin), Some(net)) = (it.next(), it.next()) {
                                 pins.push(PinEntry {
                                     pin: Some(lower_ident(&pin, base)),
@@ -566,7 +571,7 @@ fn lower_part_stmt(
                 }
             }
             Rule::param => {
-                let mut it = q.into_inner();
+                let mut it = q.into_inner().filter(|x| x.as_rule() != Rule::equals);
                 if let (Some(k), Some(v)) = (it.next(), it.next()) {
                     params.push(Param {
                         key: lower_ident(&k, base),
