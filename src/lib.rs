@@ -7,6 +7,7 @@
 pub mod analysis;
 pub mod checks;
 pub mod cli;
+pub mod config;
 pub mod finding;
 pub mod graph;
 pub mod model;
@@ -16,6 +17,7 @@ pub mod source;
 pub mod suggest;
 pub mod suppress;
 pub mod syntax;
+pub mod team;
 pub mod units;
 pub mod yaml;
 
@@ -34,6 +36,8 @@ pub struct Options {
     /// (path to read, name to show).
     pub libraries: Vec<(PathBuf, String)>,
     pub settings: Settings,
+    /// Team rules from rule files.
+    pub team: Vec<Arc<team::TeamRule>>,
 }
 
 /// The outcome of checking one file.
@@ -148,6 +152,7 @@ pub fn check_source(file: Arc<SourceFile>, opts: &Options, cache: &LibraryCache)
                 settings: &b.settings,
             };
             findings.extend(checks::run_all(&ctx));
+            findings.extend(team::run(&opts.team, &b.circuit, &b.analysis, &b.settings));
             for f in &mut findings {
                 if let Some(s) = b.settings.severity_of(&f.rule, f.severity) {
                     f.severity = s;

@@ -71,6 +71,15 @@ pub fn parse(file: &Arc<SourceFile>, code: &str) -> Result<YamlDoc, Finding> {
             ),
         ));
     }
+    if let Some((at, depth)) = too_deep(&file.text) {
+        return Err(Finding::input(
+            code,
+            file,
+            Span::new(at, at + 1),
+            format!("YAML nests deeper than {MAX_DEPTH} levels (at level {depth})"),
+        )
+        .label("here"));
+    }
     let root: Value = match serde_yaml::from_str(&file.text) {
         Ok(v) => v,
         Err(e) => {
@@ -98,6 +107,45 @@ pub fn parse(file: &Arc<SourceFile>, code: &str) -> Result<YamlDoc, Finding> {
         root,
         positions,
     })
+}
+
+/// Deepest flow nesting (`[`, `{`) accepted, checked before parsing:
+/// the YAML parser slows down badly on very deep flow collections.
+pub const MAX_DEPTH: usize = 64;
+
+fn too_deep(text: &str) -> Option<(usize, usize)> {
+    let mut depth = 0usize;
+    let mut quote: Option<u8> = None;
+    let mut comment = false;
+    for (i, b) in text.bytes().enumerate() {
+        if comment {
+            if b == b'\n' {
+                comment = false;
+            }
+            continue;
+        }
+        match quote {
+            Some(q) => {
+                if b == q {
+                    quote = None;
+                }
+            }
+            None => match b {
+                b'"' | b'\'' => quote = Some(b),
+                b'#' => comment = true,
+                b'[' | b'{' => {
+                    depth += 1;
+                    if depth > MAX_DEPTH {
+                        return Some((i, depth));
+                    }
+                }
+                b']' | b'}' => depth = depth.saturating_sub(1),
+                b'\n' => {}
+                _ => {}
+            },
+        }
+    }
+    None
 }
 
 /// A scalar's text as the user wrote it (numbers as their decimal text).

@@ -566,10 +566,8 @@ fn analyse_loads(
                             );
                             let prev = a.facts.value(d, "i_fw_peak").unwrap_or(0.0);
                             a.facts.set(d, "i_fw_peak", prev.max(i_q), Current, None);
-                            if f_pwm.0 > 0.0 {
-                                let fp = a.facts.value(d, "f_pwm").unwrap_or(0.0);
-                                a.facts.set(d, "f_pwm", fp.max(f_pwm.0), Frequency, None);
-                            }
+                            let fp = a.facts.value(d, "f_pwm").unwrap_or(0.0);
+                            a.facts.set(d, "f_pwm", fp.max(f_pwm.0), Frequency, None);
                         }
                     }
                 }

@@ -86,3 +86,13 @@ pub fn reference_net(ctx: &Ctx, pid: PartId) -> String {
 pub fn ref_of<'a>(ctx: &Ctx<'a>, pid: PartId) -> &'a str {
     &ctx.circuit.part(pid).reference
 }
+
+/// The first line of a part's statement, from the circuit alone.
+pub fn line_span_of(c: &crate::model::Circuit, p: &Part) -> Span {
+    let f = &c.file;
+    let line = f.line_index(p.span.start);
+    Span::new(
+        p.span.start,
+        p.span.end.min(f.line_end(line)).max(p.span.start),
+    )
+}

@@ -165,15 +165,62 @@ fn collect(path: &Path, out: &mut Vec<PathBuf>) -> std::io::Result<()> {
     Ok(())
 }
 
-fn base_options(common: &CommonArgs) -> Options {
-    Options {
-        libraries: common
+/// The options in force for the files under one configuration (or none),
+/// or the input errors that stop them being checked.
+struct Profile {
+    opts: Options,
+    errors: Vec<Finding>,
+}
+
+fn load_rule_file(path: &Path) -> Result<Vec<std::sync::Arc<crate::team::TeamRule>>, Vec<Finding>> {
+    let shown = crate::shown_path(path);
+    let file = crate::model::library::read_text(path, &shown).map_err(|f| vec![f])?;
+    crate::team::load(&file).map(|v| v.into_iter().map(std::sync::Arc::new).collect())
+}
+
+fn profile(config: Option<&Path>, common: &CommonArgs) -> Profile {
+    let mut errors = Vec::new();
+    let mut opts = Options::default();
+    let mut rule_files: Vec<PathBuf> = Vec::new();
+    if let Some(path) = config {
+        match crate::config::load(path) {
+            Ok(cfg) => {
+                opts.settings = cfg.settings.clone();
+                opts.libraries = cfg
+                    .libraries
+                    .iter()
+                    .map(|p| (p.clone(), crate::shown_path(p)))
+                    .collect();
+                rule_files.extend(cfg.rules.iter().cloned());
+            }
+            Err(mut e) => errors.append(&mut e),
+        }
+    }
+    opts.libraries.extend(
+        common
             .library
             .iter()
-            .map(|p| (p.clone(), crate::shown_path(p)))
-            .collect(),
-        settings: crate::settings::Settings::default(),
+            .map(|p| (p.clone(), crate::shown_path(p))),
+    );
+    rule_files.extend(common.rules.iter().cloned());
+    for rf in rule_files {
+        match load_rule_file(&rf) {
+            Ok(mut r) => opts.team.append(&mut r),
+            Err(mut e) => errors.append(&mut e),
+        }
     }
+    Profile { opts, errors }
+}
+
+fn config_for(file: &Path, common: &CommonArgs) -> Option<PathBuf> {
+    if let Some(c) = &common.config {
+        return Some(c.clone());
+    }
+    let dir = file
+        .parent()
+        .filter(|p| !p.as_os_str().is_empty())
+        .unwrap_or(Path::new("."));
+    crate::config::discover(dir)
 }
 
 fn check(a: CheckArgs) -> i32 {
@@ -195,17 +242,52 @@ fn check(a: CheckArgs) -> i32 {
             missing.push(error_result(p, "no such file or folder"));
         }
     }
-    let opts = base_options(&a.common);
     let cache = LibraryCache::default();
-    let mut results: Vec<FileResult> = files
+    // group the files by the configuration in force for each
+    let mut profiles: Vec<(Option<PathBuf>, Profile)> = Vec::new();
+    let mut assigned: Vec<(PathBuf, usize)> = Vec::new();
+    for f in &files {
+        let cfg = config_for(f, &a.common);
+        let idx = match profiles.iter().position(|(c, _)| *c == cfg) {
+            Some(i) => i,
+            None => {
+                let p = profile(cfg.as_deref(), &a.common);
+                profiles.push((cfg, p));
+                profiles.len() - 1
+            }
+        };
+        assigned.push((f.clone(), idx));
+    }
+    if files.is_empty() && a.common.config.is_some() {
+        profiles.push((
+            a.common.config.clone(),
+            profile(a.common.config.as_deref(), &a.common),
+        ));
+    }
+    let mut results: Vec<FileResult> = assigned
         .par_iter()
-        .map(|p| crate::check_path(p, &opts, &cache))
+        .filter(|(_, i)| profiles[*i].1.errors.is_empty())
+        .map(|(p, i)| crate::check_path(p, &profiles[*i].1.opts, &cache))
         .collect();
+    for (_, p) in &profiles {
+        if let Some(first) = p.errors.first() {
+            results.push(FileResult {
+                file: first.file.clone(),
+                findings: p.errors.clone(),
+                suppressed: 0,
+                settings: p.opts.settings.clone(),
+            });
+        }
+    }
     results.extend(missing);
     let fail_on = match a.fail_on {
         Some(FailOn::Warning) => Severity::Warning,
         Some(FailOn::Error) => Severity::Error,
-        None => opts.settings.fail_on,
+        None => profiles
+            .iter()
+            .map(|(_, p)| p.opts.settings.fail_on)
+            .min()
+            .unwrap_or(Severity::Error),
     };
     let format = match a.format {
         FormatArg::Human => Format::Human,
@@ -320,7 +402,46 @@ const CAUTION: &str = "Caution: armature supports a design review; it does not r
 can overheat, burn or injure. Verify on the bench with current-limited supplies, and defer to local codes, the \
 parts' data sheets and licensed practice.";
 
-fn explain(id: &str, _common: &CommonArgs) -> i32 {
+fn explain(id: &str, common: &CommonArgs) -> i32 {
+    if id.contains('/') {
+        let p = profile(config_for(Path::new("./x"), common).as_deref(), common);
+        if let Some(r) = p.opts.team.iter().find(|r| r.id == id) {
+            let (l, _) = r.file.line_col(r.span.start);
+            println!(
+                "{} (team rule, default {}; {}:{l})\n",
+                r.id, r.severity, r.file.name
+            );
+            println!(
+                "Applies to: {}",
+                r.kinds
+                    .iter()
+                    .map(|k| k.name())
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            );
+            if let Some(g) = &r.parts {
+                println!("Parts: {g}");
+            }
+            if let Some((_, w)) = &r.when {
+                println!("When: {w}");
+            }
+            println!("Requires: {}", r.require.1);
+            let show = |ps: &[crate::team::Piece]| -> String {
+                ps.iter()
+                    .map(|p| match p {
+                        crate::team::Piece::Lit(s) => s.clone(),
+                        crate::team::Piece::Expr(_, src) => format!("{{{src}}}"),
+                    })
+                    .collect()
+            };
+            println!("Message: {}", show(&r.message));
+            if let Some(h) = &r.help {
+                println!("Help: {}", show(h));
+            }
+            println!("\n{CAUTION}");
+            return 0;
+        }
+    }
     match crate::checks::find(id) {
         Some(r) => {
             let m = r.meta;
@@ -355,7 +476,7 @@ fn explain(id: &str, _common: &CommonArgs) -> i32 {
     }
 }
 
-fn rules(_common: &CommonArgs) -> i32 {
+fn rules(common: &CommonArgs) -> i32 {
     for r in crate::checks::registry() {
         println!(
             "{:<28} {:<8} {}",
@@ -364,11 +485,25 @@ fn rules(_common: &CommonArgs) -> i32 {
             r.meta.summary
         );
     }
-    0
+    let p = profile(config_for(Path::new("./x"), common).as_deref(), common);
+    for r in &p.opts.team {
+        println!(
+            "{:<28} {:<8} {} ({})",
+            r.id,
+            r.severity.as_str(),
+            r.summary(),
+            r.file.name
+        );
+    }
+    let renderer = report::human::Renderer::new(false);
+    for e in &p.errors {
+        eprint!("{}", renderer.render(e));
+    }
+    if p.errors.is_empty() { 0 } else { 2 }
 }
 
 fn facts(path: &Path, format: FactsFormat, common: &CommonArgs) -> i32 {
-    let opts = base_options(common);
+    let opts = profile(config_for(path, common).as_deref(), common).opts;
     let cache = LibraryCache::default();
     let shown = crate::shown_path(path);
     let file = match crate::read_netlist(path, &shown) {
@@ -401,7 +536,7 @@ fn facts(path: &Path, format: FactsFormat, common: &CommonArgs) -> i32 {
 }
 
 fn export_spice(path: &Path, part: Option<&str>, common: &CommonArgs) -> i32 {
-    let opts = base_options(common);
+    let opts = profile(config_for(path, common).as_deref(), common).opts;
     let cache = LibraryCache::default();
     let shown = crate::shown_path(path);
     let r = report::human::Renderer::new(false);
