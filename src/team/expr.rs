@@ -757,9 +757,11 @@ mod tests {
 
     #[test]
     fn deep_nesting_is_refused_with_the_limit() {
-        let deep = format!("{}1{}", "(".repeat(100_000), ")".repeat(100_000));
+        let deep = format!("{}1{}", "(".repeat(100), ")".repeat(100));
         let e = parse(&deep).err();
         assert!(e.is_some_and(|e| e.message.contains("64 levels")));
+        let huge = format!("{}1{}", "(".repeat(100_000), ")".repeat(100_000));
+        assert!(parse(&huge).is_err_and(|e| e.message.contains("limit is 8192")));
         let nots = format!("{}true", "not ".repeat(100_000));
         assert!(parse(&nots).is_err());
         assert!(parse(&"-".repeat(100_000)).is_err());
