@@ -57,10 +57,11 @@ impl CircuitGraph {
                 }
             }
             for (a, b) in conducting_pairs(p.kind) {
-                if let (Some(na), Some(nb)) = (p.net_of(a), p.net_of(b)) {
-                    if !c.nets[na].is_fixed() && !c.nets[nb].is_fixed() {
-                        uf.union(na, nb);
-                    }
+                if let (Some(na), Some(nb)) = (p.net_of(a), p.net_of(b))
+                    && !c.nets[na].is_fixed()
+                    && !c.nets[nb].is_fixed()
+                {
+                    uf.union(na, nb);
                 }
             }
         }

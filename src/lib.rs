@@ -4,6 +4,10 @@
 //! `checks` (+ `team`) → `report`. Everything is callable on a string:
 //! see [`check_text`].
 
+// A `Finding` is returned by value on the error path of a few readers; it
+// is built once per failed file, so boxing it would buy nothing.
+#![allow(clippy::result_large_err)]
+
 pub mod analysis;
 pub mod checks;
 pub mod cli;
@@ -194,19 +198,20 @@ pub fn check_path(path: &Path, opts: &Options, cache: &LibraryCache) -> FileResu
 pub const MAX_FILE_BYTES: u64 = 256 << 20;
 
 pub fn read_netlist(path: &Path, shown: &str) -> Result<Arc<SourceFile>, Finding> {
-    if let Ok(m) = std::fs::metadata(path) {
-        if m.is_file() && m.len() > MAX_FILE_BYTES {
-            return Err(Finding::input(
-                "file-error",
-                &SourceFile::new(shown, path, String::new()),
-                Span::new(0, 0),
-                format!(
-                    "`{shown}` is {} bytes; the limit is {} bytes",
-                    m.len(),
-                    MAX_FILE_BYTES
-                ),
-            ));
-        }
+    if let Ok(m) = std::fs::metadata(path)
+        && m.is_file()
+        && m.len() > MAX_FILE_BYTES
+    {
+        return Err(Finding::input(
+            "file-error",
+            &SourceFile::new(shown, path, String::new()),
+            Span::new(0, 0),
+            format!(
+                "`{shown}` is {} bytes; the limit is {} bytes",
+                m.len(),
+                MAX_FILE_BYTES
+            ),
+        ));
     }
     model::library::read_text(path, shown)
 }
@@ -230,10 +235,10 @@ pub fn shown_path(path: &Path) -> String {
         out
     };
     let p = clean(path);
-    if let Some(cwd) = cwd {
-        if let Ok(rel) = p.strip_prefix(&cwd) {
-            return rel.to_string_lossy().replace('\\', "/");
-        }
+    if let Some(cwd) = cwd
+        && let Ok(rel) = p.strip_prefix(&cwd)
+    {
+        return rel.to_string_lossy().replace('\\', "/");
     }
     p.to_string_lossy().replace('\\', "/")
 }

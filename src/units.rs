@@ -169,18 +169,18 @@ fn parse_suffix(suffix: &str) -> Result<(Dimension, f64, bool), UnitError> {
         return Ok((d, k, suffix == "K"));
     }
     let mut chars = suffix.chars();
-    if let Some(c) = chars.next() {
-        if let Some(p) = prefix_factor(c) {
-            let rest = chars.as_str();
-            if rest.is_empty() {
-                return Ok((Dimension::Number, p, false));
+    if let Some(c) = chars.next()
+        && let Some(p) = prefix_factor(c)
+    {
+        let rest = chars.as_str();
+        if rest.is_empty() {
+            return Ok((Dimension::Number, p, false));
+        }
+        if let Some((d, k)) = unit_of(rest) {
+            if d == Dimension::Temperature || rest == "%" {
+                return Err(UnitError::UnknownUnit(suffix.to_string()));
             }
-            if let Some((d, k)) = unit_of(rest) {
-                if d == Dimension::Temperature || rest == "%" {
-                    return Err(UnitError::UnknownUnit(suffix.to_string()));
-                }
-                return Ok((d, p * k, false));
-            }
+            return Ok((d, p * k, false));
         }
     }
     Err(UnitError::UnknownUnit(suffix.to_string()))

@@ -270,7 +270,7 @@ fn locate(text: &str) -> HashMap<String, (Span, Span)> {
             }
             if let Some((key, consumed)) = parse_key(rest) {
                 while let Some(top) = stack.last() {
-                    if top.indent >= col && !(top.is_item && top.indent < col) {
+                    if top.indent >= col {
                         stack.pop();
                     } else {
                         break;

@@ -47,14 +47,13 @@ fn run(deck: &str, tag: &str) -> Vec<(String, f64)> {
         let mut it = line.split('=');
         if let (Some(k), Some(val)) = (it.next(), it.next()) {
             let k = k.trim().to_lowercase();
-            if k == "i_on" || k == "v_peak" || k.starts_with("v(") {
-                if let Some(num) = val
+            if (k == "i_on" || k == "v_peak" || k.starts_with("v("))
+                && let Some(num) = val
                     .split_whitespace()
                     .next()
                     .and_then(|x| x.parse::<f64>().ok())
-                {
-                    v.push((k, num));
-                }
+            {
+                v.push((k, num));
             }
         }
     }

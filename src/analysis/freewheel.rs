@@ -82,6 +82,9 @@ impl Ord for Item {
     }
 }
 
+/// A crossing of the supply: (from net, to net, its voltage).
+type Hop = (NetId, NetId, f64);
+
 type Dist = HashMap<NetId, (f64, Option<(NetId, PartId)>)>;
 
 fn dijkstra(adj: &HashMap<NetId, Vec<Edge>>, from: NetId) -> Dist {
@@ -120,6 +123,7 @@ fn walk(dist: &Dist, mut n: NetId) -> Vec<PartId> {
 
 /// Analyse the opening of `switch` under `load`, from the state `st` in
 /// which the load carries its largest current.
+#[allow(clippy::too_many_arguments)]
 pub fn turn_off(
     c: &Circuit,
     _s: &Settings,
@@ -169,11 +173,11 @@ pub fn turn_off(
                 }
             }
             Kind::Tvs => {
-                if let (Some(a), Some(k)) = (n("a"), n("k")) {
-                    if let Some(vc) = p.num("v_clamp").or(p.num("vz")) {
-                        add(a, k, vc, pid);
-                        add(k, a, vc, pid);
-                    }
+                if let (Some(a), Some(k)) = (n("a"), n("k"))
+                    && let Some(vc) = p.num("v_clamp").or(p.num("vz"))
+                {
+                    add(a, k, vc, pid);
+                    add(k, a, vc, pid);
                 }
             }
             Kind::Resistor => {
@@ -183,12 +187,13 @@ pub fn turn_off(
                 }
             }
             Kind::Capacitor => {
-                if let (Some(a), Some(b), Some(cv)) = (n("1"), n("2"), p.num("value")) {
-                    if cv > 0.0 && l > 0.0 {
-                        let v = physics::open_circuit_peak(l, cv, i0);
-                        add(a, b, v, pid);
-                        add(b, a, v, pid);
-                    }
+                if let (Some(a), Some(b), Some(cv)) = (n("1"), n("2"), p.num("value"))
+                    && cv > 0.0
+                    && l > 0.0
+                {
+                    let v = physics::open_circuit_peak(l, cv, i0);
+                    add(a, b, v, pid);
+                    add(b, a, v, pid);
                 }
             }
             Kind::Nmos | Kind::Pmos => {
@@ -211,17 +216,16 @@ pub fn turn_off(
                 }
             }
             Kind::Npn | Kind::Pnp => {
-                if let (Some(cn), Some(e)) = (n("c"), n("e")) {
-                    if pid != switch
-                        && !off.contains(&pid)
-                        && st.switch_on.get(&pid).copied().unwrap_or(false)
-                    {
-                        let v = p.num("vce_sat").unwrap_or(0.2);
-                        if p.kind == Kind::Npn {
-                            add(cn, e, v, pid);
-                        } else {
-                            add(e, cn, v, pid);
-                        }
+                if let (Some(cn), Some(e)) = (n("c"), n("e"))
+                    && pid != switch
+                    && !off.contains(&pid)
+                    && st.switch_on.get(&pid).copied().unwrap_or(false)
+                {
+                    let v = p.num("vce_sat").unwrap_or(0.2);
+                    if p.kind == Kind::Npn {
+                        add(cn, e, v, pid);
+                    } else {
+                        add(e, cn, v, pid);
                     }
                 }
             }
@@ -237,7 +241,7 @@ pub fn turn_off(
         .filter_map(|(i, n)| n.fixed_max().map(|v| (i, v)))
         .collect();
     // candidates: (loop, hop)
-    let mut best: Option<(f64, Option<(NetId, NetId, f64)>)> = None;
+    let mut best: Option<(f64, Option<Hop>)> = None;
     let mut consider = |v: f64, hop: Option<(NetId, NetId, f64)>| {
         if v > MIN_LOOP && best.as_ref().is_none_or(|(b, _)| v < *b - 1e-9) {
             best = Some((v, hop));

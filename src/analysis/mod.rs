@@ -148,10 +148,10 @@ fn partners(c: &Circuit, pins: &[CtlPin], k: usize) -> Vec<usize> {
             } else {
                 None
             };
-            if let Some(o) = other {
-                if let Some(j) = pins.iter().position(|p| *p == o) {
-                    out.push(j);
-                }
+            if let Some(o) = other
+                && let Some(j) = pins.iter().position(|p| *p == o)
+            {
+                out.push(j);
             }
         }
     }
@@ -286,25 +286,23 @@ fn analyse_switches(
             } else {
                 *inv
             };
-            if let Some(d) = d {
-                if let DriveKind::Pwm {
+            if let Some(d) = d
+                && let DriveKind::Pwm {
                     freq,
                     duty_min,
                     duty_max,
                     ..
                 } = d.kind
-                {
-                    if freq > info.f_pwm {
-                        info.f_pwm = freq;
-                        let (lo, hi) = if *inv {
-                            (1.0 - duty_max, 1.0 - duty_min)
-                        } else {
-                            (duty_min, duty_max)
-                        };
-                        info.duty_min = lo;
-                        info.duty_max = hi;
-                    }
-                }
+                && freq > info.f_pwm
+            {
+                info.f_pwm = freq;
+                let (lo, hi) = if *inv {
+                    (1.0 - duty_max, 1.0 - duty_min)
+                } else {
+                    (duty_min, duty_max)
+                };
+                info.duty_min = lo;
+                info.duty_max = hi;
             }
         }
         // pin current of the controller pins on its control side
@@ -316,13 +314,12 @@ fn analyse_switches(
                     .iter()
                     .position(|x| x.name == pin.1)
                     .unwrap_or(0);
-                if let Some(&i) = r.pin_current.get(&(pin.0 * 64 + idx.min(63))) {
-                    if r.assignment.get(k) == Some(&PinState::High)
-                        && info.controls.iter().any(|(cp, _)| cp == pin)
-                        && info.pin_current.as_ref().is_none_or(|(_, m)| i.abs() > *m)
-                    {
-                        info.pin_current = Some((pin.clone(), i.abs()));
-                    }
+                if let Some(&i) = r.pin_current.get(&(pin.0 * 64 + idx.min(63)))
+                    && r.assignment.get(k) == Some(&PinState::High)
+                    && info.controls.iter().any(|(cp, _)| cp == pin)
+                    && info.pin_current.as_ref().is_none_or(|(_, m)| i.abs() > *m)
+                {
+                    info.pin_current = Some((pin.clone(), i.abs()));
                 }
             }
         }
@@ -510,22 +507,22 @@ fn analyse_loads(
         a.facts
             .set(lid, "i_cont", i_cont, Current, Some(cont_note.clone()));
         a.facts.set(lid, "f_pwm", f_pwm.0, Frequency, None);
-        if f_pwm.0 > 0.0 {
-            if let (Some(l), Some(r)) = (lp.num("l"), lp.num("r")) {
-                let v = supply_of(c, lid, &switches);
-                let d = if f_pwm.1 >= 0.5 {
-                    0.5
-                } else {
-                    f_pwm.1.max(0.0)
-                };
-                a.facts.set(
-                    lid,
-                    "i_ripple",
-                    physics::ripple(v, r, l, f_pwm.0, d),
-                    Current,
-                    Some(format!("peak-to-peak at duty {}", crate::units::percent(d))),
-                );
-            }
+        if f_pwm.0 > 0.0
+            && let (Some(l), Some(r)) = (lp.num("l"), lp.num("r"))
+        {
+            let v = supply_of(c, lid, &switches);
+            let d = if f_pwm.1 >= 0.5 {
+                0.5
+            } else {
+                f_pwm.1.max(0.0)
+            };
+            a.facts.set(
+                lid,
+                "i_ripple",
+                physics::ripple(v, r, l, f_pwm.0, d),
+                Current,
+                Some(format!("peak-to-peak at duty {}", crate::units::percent(d))),
+            );
         }
         let scale = i_stall / solved;
         for (bi, _il, sw) in &per_dir {

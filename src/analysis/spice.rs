@@ -39,7 +39,7 @@ fn is_for(vf: f64, i: f64) -> f64 {
 }
 
 /// The turn-off that sets the switch's `v_peak` fact.
-pub fn worst_turnoff<'a>(a: &'a Analysis, sw: PartId) -> Option<&'a TurnOff> {
+pub fn worst_turnoff(a: &Analysis, sw: PartId) -> Option<&TurnOff> {
     let target = a.facts.value(sw, "v_peak")?;
     a.turnoffs.iter().filter(|t| t.switch == sw).min_by(|x, y| {
         (x.v_peak - target)

@@ -229,10 +229,10 @@ pub fn io_v(c: &Circuit, mcu: PartId) -> f64 {
     }
     for pin in &p.pins {
         let n = pin.name.to_ascii_uppercase();
-        if n.starts_with("VDD") || n.starts_with("VCC") || n.starts_with("VIO") {
-            if let NetKind::Rail(r) = c.net(pin.net).kind {
-                return r.nominal;
-            }
+        if (n.starts_with("VDD") || n.starts_with("VCC") || n.starts_with("VIO"))
+            && let NetKind::Rail(r) = c.net(pin.net).kind
+        {
+            return r.nominal;
         }
     }
     0.0
@@ -494,21 +494,21 @@ fn stamp(
                 }
             }
             Kind::Nmos | Kind::Pmos => {
-                if switch_on.get(&pid).copied().unwrap_or(false) {
-                    if let Some((d, s)) = n2("d", "s") {
-                        net.conductance(d, s, 1.0 / rds_on(c, pid));
-                    }
+                if switch_on.get(&pid).copied().unwrap_or(false)
+                    && let Some((d, s)) = n2("d", "s")
+                {
+                    net.conductance(d, s, 1.0 / rds_on(c, pid));
                 }
             }
             Kind::Npn | Kind::Pnp => {
-                if switch_on.get(&pid).copied().unwrap_or(false) {
-                    if let Some((col, e)) = n2("c", "e") {
-                        let vsat = p.num("vce_sat").unwrap_or(0.2);
-                        if p.kind == Kind::Npn {
-                            net.source(col, e, vsat, 0.05);
-                        } else {
-                            net.source(e, col, vsat, 0.05);
-                        }
+                if switch_on.get(&pid).copied().unwrap_or(false)
+                    && let Some((col, e)) = n2("c", "e")
+                {
+                    let vsat = p.num("vce_sat").unwrap_or(0.2);
+                    if p.kind == Kind::Npn {
+                        net.source(col, e, vsat, 0.05);
+                    } else {
+                        net.source(e, col, vsat, 0.05);
                     }
                 }
             }
@@ -545,10 +545,10 @@ fn stamp(
             if diode_on.get(&key).copied().unwrap_or(false) {
                 net.source(a, k, vf, DIODE_R_ON);
             }
-            if let Some(vr) = vr {
-                if diode_on.get(&(key + REV)).copied().unwrap_or(false) {
-                    net.source(k, a, vr, DIODE_R_ON);
-                }
+            if let Some(vr) = vr
+                && diode_on.get(&(key + REV)).copied().unwrap_or(false)
+            {
+                net.source(k, a, vr, DIODE_R_ON);
             }
         }
     }
@@ -600,16 +600,16 @@ fn currents(
                 Some(i)
             }
             Kind::Npn | Kind::Pnp => {
-                if let (Some(b), Some(e)) = (v("b"), v("e")) {
-                    if st.diode_on.get(&(pid + BASE)).copied().unwrap_or(false) {
-                        let vbe = p.num("vbe_on").unwrap_or(0.7);
-                        let ib = if p.kind == Kind::Npn {
-                            (b - e) - vbe
-                        } else {
-                            (e - b) - vbe
-                        } / DIODE_R_ON;
-                        base_currents.push((pid + BASE, ib.max(0.0)));
-                    }
+                if let (Some(b), Some(e)) = (v("b"), v("e"))
+                    && st.diode_on.get(&(pid + BASE)).copied().unwrap_or(false)
+                {
+                    let vbe = p.num("vbe_on").unwrap_or(0.7);
+                    let ib = if p.kind == Kind::Npn {
+                        (b - e) - vbe
+                    } else {
+                        (e - b) - vbe
+                    } / DIODE_R_ON;
+                    base_currents.push((pid + BASE, ib.max(0.0)));
                 }
                 match (v("c"), v("e")) {
                     (Some(cv), Some(e)) if st.switch_on.get(&pid).copied().unwrap_or(false) => {
@@ -630,10 +630,10 @@ fn currents(
                         if st.diode_on.get(&key).copied().unwrap_or(false) {
                             i += ((a - k) - vf) / DIODE_R_ON;
                         }
-                        if let Some(vr) = vr {
-                            if st.diode_on.get(&(key + REV)).copied().unwrap_or(false) {
-                                i -= ((k - a) - vr) / DIODE_R_ON;
-                            }
+                        if let Some(vr) = vr
+                            && st.diode_on.get(&(key + REV)).copied().unwrap_or(false)
+                        {
+                            i -= ((k - a) - vr) / DIODE_R_ON;
                         }
                     }
                     Some(i)

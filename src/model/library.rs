@@ -91,19 +91,22 @@ pub fn text_from_bytes(
     }
 }
 
+/// A library, or every error that stops it loading.
+type Loaded = Result<Arc<Library>, Vec<Finding>>;
+
 /// Libraries shared between the files of one run.
 #[derive(Default)]
 pub struct LibraryCache {
-    map: Mutex<HashMap<PathBuf, Result<Arc<Library>, Vec<Finding>>>>,
+    map: Mutex<HashMap<PathBuf, Loaded>>,
 }
 
 impl LibraryCache {
     pub fn load(&self, path: &Path, shown: &str) -> Result<Arc<Library>, Vec<Finding>> {
         let key = std::fs::canonicalize(path).unwrap_or_else(|_| path.to_path_buf());
-        if let Ok(map) = self.map.lock() {
-            if let Some(l) = map.get(&key) {
-                return l.clone();
-            }
+        if let Ok(map) = self.map.lock()
+            && let Some(l) = map.get(&key)
+        {
+            return l.clone();
         }
         let result = match read_text(path, shown) {
             Ok(file) => load_library(&file).map(Arc::new),

@@ -488,12 +488,12 @@ impl Elab<'_> {
                 Some(p) => p.span.join(entry.net.span),
                 None => entry.net.span,
             };
-            if let kinds::PinSpec::Fixed(list) = kind.pins() {
-                if !list.iter().any(|(n, _)| *n == pin_name) {
-                    part.unknown_pins
-                        .push((pin_name, entry.pin.as_ref().map_or(pin_span, |p| p.span)));
-                    continue;
-                }
+            if let kinds::PinSpec::Fixed(list) = kind.pins()
+                && !list.iter().any(|(n, _)| *n == pin_name)
+            {
+                part.unknown_pins
+                    .push((pin_name, entry.pin.as_ref().map_or(pin_span, |p| p.span)));
+                continue;
             }
             if part.pins.iter().any(|p| p.name == pin_name) {
                 self.err(

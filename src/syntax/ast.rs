@@ -78,6 +78,7 @@ pub struct PinRef {
     pub pin: Spanned<String>,
 }
 
+#[allow(clippy::large_enum_variant)]
 #[derive(Clone, Debug, PartialEq)]
 pub enum DriveMode {
     Static,
@@ -89,6 +90,7 @@ pub enum DriveMode {
     },
 }
 
+#[allow(clippy::large_enum_variant)]
 #[derive(Clone, Debug, PartialEq)]
 pub enum StatementKind {
     Design {

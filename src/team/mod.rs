@@ -504,10 +504,10 @@ pub fn run(rules: &[Arc<TeamRule>], c: &Circuit, a: &Analysis, s: &Settings) -> 
             if !r.kinds.contains(&p.kind) {
                 continue;
             }
-            if let Some(g) = &r.parts {
-                if !glob(g, p.part_name.as_deref().unwrap_or("")) {
-                    continue;
-                }
+            if let Some(g) = &r.parts
+                && !glob(g, p.part_name.as_deref().unwrap_or(""))
+            {
+                continue;
             }
             let env = PartEnv { c, a, s, pid, p };
             let line = crate::checks::common::line_span_of(c, p);

@@ -65,41 +65,41 @@ pub fn detect(ctx: &Ctx) -> Vec<Short> {
         let Some(ifw) = f.value(i, "i_fw") else {
             continue;
         };
-        if let Some(r) = p.num("if_avg") {
-            if ifw > r * d.current {
-                out.push(Short {
-                    diode: i,
-                    what: "average current",
-                    need: ifw,
-                    limit: r * d.current,
-                    rating: r,
-                    dim: Current,
-                });
-            }
+        if let Some(r) = p.num("if_avg")
+            && ifw > r * d.current
+        {
+            out.push(Short {
+                diode: i,
+                what: "average current",
+                need: ifw,
+                limit: r * d.current,
+                rating: r,
+                dim: Current,
+            });
         }
-        if let (Some(r), Some(pk)) = (p.num("ifsm"), f.value(i, "i_fw_peak")) {
-            if pk > r {
-                out.push(Short {
-                    diode: i,
-                    what: "surge current",
-                    need: pk,
-                    limit: r,
-                    rating: r,
-                    dim: Current,
-                });
-            }
+        if let (Some(r), Some(pk)) = (p.num("ifsm"), f.value(i, "i_fw_peak"))
+            && pk > r
+        {
+            out.push(Short {
+                diode: i,
+                what: "surge current",
+                need: pk,
+                limit: r,
+                rating: r,
+                dim: Current,
+            });
         }
-        if let (Some(r), Some(vr)) = (p.num("vrrm"), f.value(i, "v_rev")) {
-            if vr > r * d.voltage {
-                out.push(Short {
-                    diode: i,
-                    what: "reverse voltage",
-                    need: vr,
-                    limit: r * d.voltage,
-                    rating: r,
-                    dim: Voltage,
-                });
-            }
+        if let (Some(r), Some(vr)) = (p.num("vrrm"), f.value(i, "v_rev"))
+            && vr > r * d.voltage
+        {
+            out.push(Short {
+                diode: i,
+                what: "reverse voltage",
+                need: vr,
+                limit: r * d.voltage,
+                rating: r,
+                dim: Voltage,
+            });
         }
     }
     out

@@ -71,29 +71,28 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
         if base_on_pin {
             continue;
         }
-        if let Some(((mcu, pin), i)) = &info.pin_current {
-            if let Some(imax) = c.part(*mcu).num("io_i_max") {
-                if *i > imax {
-                    let f = on_part(
-                        &META,
-                        ctx,
-                        *mcu,
-                        "overloaded pin",
-                        format!(
-                            "`{}.{pin}` sources {} into the gate network of `{}`, above its {} rating",
-                            ref_of(ctx, *mcu),
-                            a(*i),
-                            p.reference,
-                            a(imax)
-                        ),
-                    );
-                    out.push(anchor(f).help(format!(
-                        "raise the pull-down to 10 kΩ–100 kΩ so that the pin sources well under {}",
-                        a(imax)
-                    )));
-                    continue;
-                }
-            }
+        if let Some(((mcu, pin), i)) = &info.pin_current
+            && let Some(imax) = c.part(*mcu).num("io_i_max")
+            && *i > imax
+        {
+            let f = on_part(
+                &META,
+                ctx,
+                *mcu,
+                "overloaded pin",
+                format!(
+                    "`{}.{pin}` sources {} into the gate network of `{}`, above its {} rating",
+                    ref_of(ctx, *mcu),
+                    a(*i),
+                    p.reference,
+                    a(imax)
+                ),
+            );
+            out.push(anchor(f).help(format!(
+                "raise the pull-down to 10 kΩ–100 kΩ so that the pin sources well under {}",
+                a(imax)
+            )));
+            continue;
         }
         if !p.kind.is_mos() || info.controls.is_empty() {
             continue;
