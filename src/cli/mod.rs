@@ -305,7 +305,15 @@ fn check(a: CheckArgs) -> i32 {
     };
     let stdout = std::io::stdout();
     let mut out = std::io::BufWriter::new(stdout.lock());
-    let _ = emit(&mut out, &results, format, color, a.max_findings);
+    let mut team: Vec<std::sync::Arc<crate::team::TeamRule>> = Vec::new();
+    for (_, p) in &profiles {
+        for r in &p.opts.team {
+            if !team.iter().any(|t| t.id == r.id) {
+                team.push(r.clone());
+            }
+        }
+    }
+    let _ = emit(&mut out, &results, format, color, a.max_findings, &team);
     let _ = out.flush();
     crate::exit_code(&results, fail_on)
 }
@@ -332,6 +340,7 @@ pub fn emit(
     format: Format,
     color: bool,
     max: Option<usize>,
+    team: &[std::sync::Arc<crate::team::TeamRule>],
 ) -> std::io::Result<()> {
     let all: Vec<&Finding> = results.iter().flat_map(|r| r.findings.iter()).collect();
     let suppressed: usize = results.iter().map(|r| r.suppressed).sum();
@@ -387,7 +396,7 @@ pub fn emit(
         }
         Format::Sarif => {
             let owned: Vec<Finding> = all.iter().map(|f| (*f).clone()).collect();
-            let doc = report::sarif::document(&owned);
+            let doc = report::sarif::document(&owned, team);
             writeln!(
                 out,
                 "{}",
