@@ -42,7 +42,14 @@ fn schema() -> serde_json::Value {
             // ECMA-262 engine reads as a literal and Rust's regex engines
             // reject; escaping it keeps its meaning.
             let t = t.replace("-[a-zA-Z]{2}]?$", "-[a-zA-Z]{2}\\\\]?$");
-            if let Ok(v) = serde_json::from_str(&t) {
+            if let Ok(mut v) = serde_json::from_str::<serde_json::Value>(&t) {
+                // This copy of the schema keeps the log's own shape under
+                // `definitions/Root` with nothing at the top that points to
+                // it, so as it stands it accepts any document. Validate
+                // against the root definition explicitly.
+                if v.get("$ref").is_none() && v["definitions"].get("Root").is_some() {
+                    v["$ref"] = serde_json::Value::String("#/definitions/Root".into());
+                }
                 return v;
             }
         }
