@@ -234,12 +234,7 @@ pub fn turn_off(
     }
     let d1 = dijkstra(&fwd, leave);
     let d2 = dijkstra(&rev, enter);
-    let fixed: Vec<(NetId, f64)> = c
-        .nets
-        .iter()
-        .enumerate()
-        .filter_map(|(i, n)| n.fixed_max().map(|v| (i, v)))
-        .collect();
+    let fixed = &c.fixed_nets;
     // candidates: (loop, hop)
     let mut best: Option<(f64, Option<Hop>)> = None;
     let mut consider = |v: f64, hop: Option<(NetId, NetId, f64)>| {
@@ -250,9 +245,9 @@ pub fn turn_off(
     if let Some((d, _)) = d1.get(&enter) {
         consider(*d, None);
     }
-    for &(x, vx) in &fixed {
+    for &(x, vx) in fixed {
         let Some((dx, _)) = d1.get(&x) else { continue };
-        for &(y, vy) in &fixed {
+        for &(y, vy) in fixed {
             if x == y {
                 continue;
             }
@@ -265,8 +260,13 @@ pub fn turn_off(
     // resistor carries no current once the switch is open)
     let mut forced: Vec<PartId> = off.to_vec();
     forced.push(switch);
-    let off_st = states::solve_state_forced(c, grp, &st.assignment, &forced);
-    let off_v = |net: NetId| -> f64 { off_st.v(c, net).unwrap_or_else(|| on_v(net)) };
+    let off_st = std::cell::OnceCell::new();
+    let off_v = |net: NetId| -> f64 {
+        off_st
+            .get_or_init(|| states::solve_state_forced(c, grp, &st.assignment, &forced))
+            .v(c, net)
+            .unwrap_or_else(|| on_v(net))
+    };
     let sp = c.part(switch);
     let (main_pin, _, ref_pin) = sp.kind.switch_pins().unwrap_or(("d", "g", "s"));
     let (sm, sr) = (

@@ -132,30 +132,10 @@ fn partners(c: &Circuit, pins: &[CtlPin], k: usize) -> Vec<usize> {
     let Some(me) = pins.get(k) else {
         return Vec::new();
     };
-    let mut out = Vec::new();
-    for d in &c.drives {
-        if let DriveKind::Pwm {
-            complement: Some((cp, cpin)),
-            ..
-        } = &d.kind
-        {
-            let a = (d.part, d.pin.clone());
-            let b = (*cp, cpin.clone());
-            let other = if &a == me {
-                Some(b)
-            } else if &b == me {
-                Some(a)
-            } else {
-                None
-            };
-            if let Some(o) = other
-                && let Some(j) = pins.iter().position(|p| *p == o)
-            {
-                out.push(j);
-            }
-        }
-    }
-    out
+    c.complement_of(me.0, &me.1)
+        .and_then(|o| pins.iter().position(|p| p == o))
+        .into_iter()
+        .collect()
 }
 
 fn drive_of<'a>(c: &'a Circuit, pin: &CtlPin) -> Option<&'a crate::model::Drive> {
@@ -170,30 +150,48 @@ pub fn analyze(c: &Circuit, g: &CircuitGraph, s: &Settings) -> Analysis {
         ..Analysis::default()
     };
     let groups = states::groups(c, g);
-    for (gi, grp) in groups.iter().enumerate() {
-        if grp.pins.len() > states::MAX_GROUP_PINS {
-            a.truncated.push(gi);
-        }
-        let assigns = states::assignments(c, &grp.pins);
-        let results: Vec<StateResult> = assigns
-            .iter()
-            .map(|x| states::solve_state(c, grp, x, None))
+    // the groups are independent: solve their states on every core, a
+    // chunk at a time so that the solved states of a large board are not
+    // all held at once
+    use rayon::prelude::*;
+    const CHUNK: usize = 2048;
+    for chunk_start in (0..groups.len()).step_by(CHUNK) {
+        let chunk = &groups[chunk_start..(chunk_start + CHUNK).min(groups.len())];
+        let solved: Vec<Vec<StateResult>> = chunk
+            .par_iter()
+            .with_min_len(64)
+            .map(|grp| {
+                states::assignments(c, &grp.pins)
+                    .iter()
+                    .map(|x| states::solve_state(c, grp, x, None))
+                    .collect()
+            })
             .collect();
-        for r in &results {
-            for (&net, &v) in &r.volts {
-                if r.floating.contains(&net) {
-                    continue;
-                }
-                let mx = a.net_vmax[net].get_or_insert(v);
-                *mx = mx.max(v);
-                let mn = a.net_vmin[net].get_or_insert(v);
-                *mn = mn.min(v);
+        for ((gi, grp), results) in chunk
+            .iter()
+            .enumerate()
+            .map(|(i, g)| (i + chunk_start, g))
+            .zip(solved)
+        {
+            if grp.pins.len() > states::MAX_GROUP_PINS {
+                a.truncated.push(gi);
             }
+            for r in &results {
+                for (&net, &v) in &r.volts {
+                    if r.floating.contains(&net) {
+                        continue;
+                    }
+                    let mx = a.net_vmax[net].get_or_insert(v);
+                    *mx = mx.max(v);
+                    let mn = a.net_vmin[net].get_or_insert(v);
+                    *mn = mn.min(v);
+                }
+            }
+            analyse_switches(c, gi, grp, &results, &mut a);
+            analyse_loads(c, s, gi, grp, &results, &mut a);
+            analyse_legs(c, grp, &results, &mut a);
+            analyse_diodes(c, grp, &results, &mut a);
         }
-        analyse_switches(c, gi, grp, &results, &mut a);
-        analyse_loads(c, s, gi, grp, &results, &mut a);
-        analyse_legs(c, grp, &results, &mut a);
-        analyse_diodes(c, grp, &results, &mut a);
     }
     a.groups = groups;
     rail_shorts(c, &mut a);
@@ -278,9 +276,8 @@ fn analyse_switches(
         info.duty_min = 1.0;
         info.duty_max = 1.0;
         for (pin, inv) in &info.controls {
-            let d = drive_of(c, pin).or_else(|| {
-                c.drives.iter().find(|d| matches!(&d.kind, DriveKind::Pwm { complement: Some((cp, cpin)), .. } if *cp == pin.0 && *cpin == pin.1))
-            });
+            let d = drive_of(c, pin)
+                .or_else(|| c.complement_of(pin.0, &pin.1).and_then(|o| drive_of(c, o)));
             let inv = &if drive_of(c, pin).is_none() && d.is_some() {
                 !*inv
             } else {

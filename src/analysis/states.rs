@@ -169,17 +169,12 @@ pub fn assignments(c: &Circuit, pins: &[CtlPin]) -> Vec<Vec<PinState>> {
     let k = pins.len().min(MAX_GROUP_PINS);
     // complement constraints: index pairs
     let mut pairs = Vec::new();
-    for d in &c.drives {
-        if let crate::model::DriveKind::Pwm {
-            complement: Some((cp, cpin)),
-            ..
-        } = &d.kind
+    for (a, p) in pins.iter().enumerate() {
+        if let Some(o) = c.complement_of(p.0, &p.1)
+            && let Some(b) = pins.iter().position(|x| x == o)
+            && a < b
         {
-            let a = pins.iter().position(|(p, n)| *p == d.part && *n == d.pin);
-            let b = pins.iter().position(|(p, n)| p == cp && n == cpin);
-            if let (Some(a), Some(b)) = (a, b) {
-                pairs.push((a, b));
-            }
+            pairs.push((a, b));
         }
     }
     for mask in 0u32..(1u32 << k) {
@@ -282,12 +277,7 @@ pub fn solve_state_forced(
     assign: &[PinState],
     force_off: &[PartId],
 ) -> StateResult {
-    let fixed: Vec<(NetId, f64)> = c
-        .nets
-        .iter()
-        .enumerate()
-        .filter_map(|(i, n)| n.fixed_max().map(|v| (i, v)))
-        .collect();
+    let fixed = &c.fixed_nets;
     let mut switch_on: HashMap<PartId, bool> = HashMap::new();
     let mut diode_on: HashMap<PartId, bool> = HashMap::new();
     let mut drv_high: HashMap<(PartId, bool), bool> = HashMap::new();

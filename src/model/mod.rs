@@ -229,6 +229,12 @@ pub struct Circuit {
     pub duplicates: Vec<(PartId, PartId)>,
     /// `library` lines: (path text, span)
     pub library_lines: Vec<(String, Span)>,
+    /// (controller part, pin) → index into `drives`.
+    pub drive_index: HashMap<(PartId, String), usize>,
+    /// A `complement` pin's partner, both ways.
+    pub complement: HashMap<(PartId, String), (PartId, String)>,
+    /// Rails and grounds with their worst-case (maximum) potential.
+    pub fixed_nets: Vec<(NetId, f64)>,
 }
 
 impl Circuit {
@@ -248,7 +254,14 @@ impl Circuit {
     }
     /// The drive statement of a controller pin.
     pub fn drive_of(&self, part: PartId, pin: &str) -> Option<&Drive> {
-        self.drives.iter().find(|d| d.part == part && d.pin == pin)
+        self.drive_index
+            .get(&(part, pin.to_string()))
+            .and_then(|&i| self.drives.get(i))
+    }
+
+    /// The pin declared as the complement of this one (either way).
+    pub fn complement_of(&self, part: PartId, pin: &str) -> Option<&(PartId, String)> {
+        self.complement.get(&(part, pin.to_string()))
     }
 }
 
@@ -857,6 +870,9 @@ pub fn elaborate(
             suppressions: netlist.suppressions.clone(),
             duplicates: Vec::new(),
             library_lines: library_lines(netlist),
+            drive_index: HashMap::new(),
+            complement: HashMap::new(),
+            fixed_nets: Vec::new(),
         },
     };
     // Rails and grounds first, so that their kind is known to every part.
@@ -902,7 +918,25 @@ pub fn elaborate(
     for (pin, mode, span, line) in drives {
         let _ = e.drive(pin, mode, span, line);
     }
-    (e.c, e.errors)
+    let mut c = e.c;
+    for (i, d) in c.drives.iter().enumerate() {
+        c.drive_index.insert((d.part, d.pin.clone()), i);
+        if let DriveKind::Pwm {
+            complement: Some(other),
+            ..
+        } = &d.kind
+        {
+            c.complement.insert((d.part, d.pin.clone()), other.clone());
+            c.complement.insert(other.clone(), (d.part, d.pin.clone()));
+        }
+    }
+    c.fixed_nets = c
+        .nets
+        .iter()
+        .enumerate()
+        .filter_map(|(i, n)| n.fixed_max().map(|v| (i, v)))
+        .collect();
+    (c, e.errors)
 }
 
 fn name_as_value(name: &ast::Spanned<String>) -> &ast::Spanned<Value> {

@@ -126,45 +126,69 @@ fn join_continuations(text: &str) -> std::borrow::Cow<'_, str> {
 /// Parse a whole file. Returns the AST of every line that parsed and the
 /// errors of those that did not.
 pub fn parse(file: &Arc<SourceFile>) -> (Netlist, Vec<Finding>) {
-    let mut out = Netlist::default();
-    let mut errors = Vec::new();
+    use rayon::prelude::*;
     let joined = join_continuations(&file.text);
     let text: &str = &joined;
+    let mut lines: Vec<(usize, &str)> = Vec::with_capacity(file.line_count());
     let mut offset = 0usize;
     for raw in text.split('\n') {
         let base = offset;
         offset += raw.len() + 1;
-        if raw.trim().is_empty() {
-            continue;
-        }
-        if raw.len() > MAX_LINE_BYTES {
-            errors.push(
-                Finding::input(
-                    "parse-error",
-                    file,
-                    Span::new(base, base + 1),
-                    format!(
-                        "line is {} bytes long; the limit is {} bytes",
-                        raw.len(),
-                        MAX_LINE_BYTES
-                    ),
-                )
-                .label("this line")
-                .help("split the statement over several lines with `\\`, or check that the file is a netlist"),
-            );
-            continue;
-        }
-        let line_no = file.line_index(base);
-        match NetlistParser::parse(Rule::line, raw) {
-            Ok(mut pairs) => {
-                if let Some(line) = pairs.next() {
-                    lower_line(file, line, base, line_no, &mut out, &mut errors);
-                }
-            }
-            Err(e) => errors.push(pest_error(file, &e, raw, base)),
+        if !raw.trim().is_empty() {
+            lines.push((base, raw));
         }
     }
+    // lines parse independently: in parallel, merged back in order
+    let parsed: Vec<(Netlist, Vec<Finding>)> = lines
+        .par_iter()
+        .with_min_len(512)
+        .map(|&(base, raw)| {
+            let mut out = Netlist::default();
+            let mut errors = Vec::new();
+            parse_line(file, base, raw, &mut out, &mut errors);
+            (out, errors)
+        })
+        .collect();
+    let mut out = Netlist::default();
+    out.statements.reserve(parsed.len());
+    let mut errors = Vec::new();
+    for (n, mut e) in parsed {
+        out.statements.extend(n.statements);
+        out.suppressions.extend(n.suppressions);
+        errors.append(&mut e);
+    }
     (out, errors)
+}
+
+fn parse_line(
+    file: &Arc<SourceFile>,
+    base: usize,
+    raw: &str,
+    out: &mut Netlist,
+    errors: &mut Vec<Finding>,
+) {
+    if raw.len() > MAX_LINE_BYTES {
+        errors.push(
+            Finding::input(
+                "parse-error",
+                file,
+                Span::new(base, base + 1),
+                format!("line is {} bytes long; the limit is {} bytes", raw.len(), MAX_LINE_BYTES),
+            )
+            .label("this line")
+            .help("split the statement over several lines with `\\`, or check that the file is a netlist"),
+        );
+        return;
+    }
+    let line_no = file.line_index(base);
+    match NetlistParser::parse(Rule::line, raw) {
+        Ok(mut pairs) => {
+            if let Some(line) = pairs.next() {
+                lower_line(file, line, base, line_no, out, errors);
+            }
+        }
+        Err(e) => errors.push(pest_error(file, &e, raw, base)),
+    }
 }
 
 fn pest_error(

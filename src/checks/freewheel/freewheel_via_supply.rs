@@ -44,7 +44,7 @@ pub const RULE: Rule = Rule { meta: &META, check };
 
 fn has_cap(ctx: &Ctx, net: usize) -> bool {
     let c = ctx.circuit;
-    c.parts.iter().any(|p| {
+    ctx.graph.parts_on(net).map(|q| c.part(q)).any(|p| {
         p.kind == Kind::Capacitor
             && p.pins.iter().any(|x| x.net == net)
             && p.pins
@@ -56,16 +56,19 @@ fn has_cap(ctx: &Ctx, net: usize) -> bool {
 fn check(ctx: &Ctx) -> Vec<Finding> {
     let c = ctx.circuit;
     let mut out: Vec<Finding> = Vec::new();
-    let mut seen = Vec::new();
+    let mut seen = std::collections::HashSet::new();
+    let mut capped: std::collections::HashMap<usize, bool> = std::collections::HashMap::new();
     for tt in &ctx.analysis.turnoffs {
         let Some(p) = &tt.path else { continue };
         let Some((x, _y, hv)) = p.via_supply else {
             continue;
         };
-        if hv <= 0.0 || has_cap(ctx, x) || seen.contains(&(tt.load, x)) {
+        if hv <= 0.0
+            || *capped.entry(x).or_insert_with(|| has_cap(ctx, x))
+            || !seen.insert((tt.load, x))
+        {
             continue;
         }
-        seen.push((tt.load, x));
         let l = c.part(tt.load).num("l").unwrap_or(0.0);
         let e = 0.5 * l * tt.i0 * tt.i0;
         let mut f = on_part(

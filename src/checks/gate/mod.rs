@@ -39,15 +39,19 @@ pub fn pull_resistors(ctx: &Ctx, sw: PartId) -> Vec<PartId> {
     };
     let island = &ctx.graph.islands[gi];
     let _ = a;
-    c.parts
+    let mut out: Vec<PartId> = island
         .iter()
-        .enumerate()
-        .filter(|(_, q)| q.kind == Kind::Resistor)
-        .filter(|(_, q)| {
-            let nets: Vec<usize> = q.pins.iter().map(|x| x.net).collect();
-            nets.iter().any(|n| island.contains(n))
-                && nets.iter().any(|&n| n == rn || c.net(n).is_fixed())
+        .flat_map(|&n| ctx.graph.parts_on(n))
+        .filter(|&q| {
+            let qp = c.part(q);
+            qp.kind == Kind::Resistor
+                && qp
+                    .pins
+                    .iter()
+                    .any(|x| x.net == rn || c.net(x.net).is_fixed())
         })
-        .map(|(i, _)| i)
-        .collect()
+        .collect();
+    out.sort_unstable();
+    out.dedup();
+    out
 }

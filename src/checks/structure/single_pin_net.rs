@@ -48,34 +48,56 @@ pub struct Lonely {
 
 pub fn detect(ctx: &Ctx) -> Vec<Lonely> {
     let c = ctx.circuit;
-    let mut out = Vec::new();
-    for (i, n) in c.nets.iter().enumerate() {
-        if n.kind != NetKind::Signal || n.conns.len() != 1 {
-            continue;
-        }
-        let (pid, _) = n.conns[0];
-        let p = c.part(pid);
-        if matches!(
-            p.kind,
-            crate::model::Kind::Mcu | crate::model::Kind::Connector
-        ) {
-            continue;
-        }
-        let suggestion = suggest::closest(
-            &n.name,
-            c.nets
-                .iter()
-                .filter(|m| m.name != n.name && (m.conns.len() > 1 || m.kind != NetKind::Signal))
-                .map(|m| m.name.as_str()),
-        )
-        .map(str::to_string);
-        out.push(Lonely {
-            net: i,
-            part: pid,
-            suggestion,
-        });
+    let lonely: Vec<(usize, usize)> = c
+        .nets
+        .iter()
+        .enumerate()
+        .filter(|(_, n)| n.kind == NetKind::Signal && n.conns.len() == 1)
+        .filter_map(|(i, n)| {
+            let (pid, _) = n.conns[0];
+            let p = c.part(pid);
+            (!matches!(
+                p.kind,
+                crate::model::Kind::Mcu | crate::model::Kind::Connector
+            ))
+            .then_some((i, pid))
+        })
+        .collect();
+    if lonely.is_empty() {
+        return Vec::new();
     }
-    out
+    // Candidates for a suggestion: nets that are connected, indexed by
+    // their first two characters on a large board (comparing every pair
+    // of names would be quadratic).
+    let large = c.nets.len() > 5000;
+    let key = |s: &str| -> String {
+        if large {
+            s.chars().take(2).collect()
+        } else {
+            String::new()
+        }
+    };
+    let mut index: std::collections::HashMap<String, Vec<&str>> = std::collections::HashMap::new();
+    for m in &c.nets {
+        if m.conns.len() > 1 || m.kind != NetKind::Signal {
+            index.entry(key(&m.name)).or_default().push(m.name.as_str());
+        }
+    }
+    lonely
+        .into_iter()
+        .map(|(i, pid)| {
+            let n = c.net(i);
+            let suggestion = index
+                .get(&key(&n.name))
+                .and_then(|cands| suggest::closest(&n.name, cands.iter().copied()))
+                .map(str::to_string);
+            Lonely {
+                net: i,
+                part: pid,
+                suggestion,
+            }
+        })
+        .collect()
 }
 
 fn check(ctx: &Ctx) -> Vec<Finding> {

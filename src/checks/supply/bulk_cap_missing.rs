@@ -61,7 +61,7 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
     rails.sort_unstable();
     let mut out = Vec::new();
     for (net, load) in rails {
-        let has = c.parts.iter().any(|p| {
+        let has = ctx.graph.parts_on(net).map(|q| c.part(q)).any(|p| {
             p.kind == Kind::Capacitor
                 && p.pins.iter().any(|x| x.net == net)
                 && p.pins

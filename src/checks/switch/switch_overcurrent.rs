@@ -46,6 +46,10 @@ pub const RULE: Rule = Rule { meta: &META, check };
 fn check(ctx: &Ctx) -> Vec<Finding> {
     let d = &ctx.settings.derating;
     let mut out = Vec::new();
+    let mut load_of = std::collections::HashMap::new();
+    for t in &ctx.analysis.turnoffs {
+        load_of.entry(t.switch).or_insert(t.load);
+    }
     for (i, p) in ctx.circuit.parts.iter().enumerate() {
         if !p.kind.is_switch() {
             continue;
@@ -60,12 +64,7 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
         if ion <= limit {
             continue;
         }
-        let load = ctx
-            .analysis
-            .turnoffs
-            .iter()
-            .find(|t| t.switch == i)
-            .map(|t| t.load);
+        let load = load_of.get(&i).copied();
         let why = load
             .and_then(|l| {
                 let lp = ctx.circuit.part(l);

@@ -1,0 +1,204 @@
+//! Scale benchmark: generated netlists of 16k, 160k and 1.6M parts.
+//! Reports the time of each pipeline stage, the total of
+//! `armature check --format json` (a release build, as a child process,
+//! with its peak memory), and the ratio to a plain read-and-count-lines
+//! pass over the same file. Run with `cargo bench --bench scale`
+//! (`-- 16000 160000` to choose the sizes; `--team 1000` adds 1,000 team
+//! rules; `--render 10000` times rendering of 10,000 findings).
+
+#[path = "gen.rs"]
+mod generator;
+
+use armature::model::library::LibraryCache;
+use armature::source::SourceFile;
+use armature::{Options, analysis, checks, graph, model, syntax};
+use std::path::{Path, PathBuf};
+use std::sync::Arc;
+use std::time::Instant;
+
+fn ms(t: Instant) -> f64 {
+    t.elapsed().as_secs_f64() * 1e3
+}
+
+fn peak_rss_child_kib() -> i64 {
+    // SAFETY: getrusage only writes into the struct we hand it.
+    unsafe {
+        let mut u: libc::rusage = std::mem::zeroed();
+        if libc::getrusage(libc::RUSAGE_CHILDREN, &mut u) == 0 {
+            u.ru_maxrss
+        } else {
+            -1
+        }
+    }
+}
+
+fn stages(path: &Path, team: &[Arc<armature::team::TeamRule>]) {
+    let text = std::fs::read_to_string(path).unwrap_or_default();
+    let t0 = Instant::now();
+    let lines = text.lines().count();
+    let floor = ms(t0);
+    let file = SourceFile::new(path.to_string_lossy(), path, text);
+    let t = Instant::now();
+    let (ast, errs) = syntax::parse(&file);
+    let t_parse = ms(t);
+    let cache = LibraryCache::default();
+    let lib_path = path.with_file_name("gen-parts.yaml");
+    let lib = cache.load(&lib_path, "gen-parts.yaml").ok();
+    let t = Instant::now();
+    let libs: Vec<_> = lib.into_iter().collect();
+    let (circuit, e2) = model::elaborate(&file, &ast, &libs);
+    let t_elab = ms(t);
+    let t = Instant::now();
+    let g = graph::CircuitGraph::build(&circuit);
+    let t_graph = ms(t);
+    let settings = armature::settings::Settings::default();
+    let t = Instant::now();
+    let a = analysis::analyze(&circuit, &g, &settings);
+    let t_an = ms(t);
+    let ctx = checks::Ctx {
+        circuit: &circuit,
+        graph: &g,
+        analysis: &a,
+        settings: &settings,
+    };
+    let t = Instant::now();
+    let mut findings = Vec::new();
+    let mut slowest = (0.0f64, "");
+    for r in checks::registry() {
+        let tr = Instant::now();
+        findings.extend((r.check)(&ctx));
+        let d = ms(tr);
+        if d > slowest.0 {
+            slowest = (d, r.meta.id);
+        }
+    }
+    let t_checks = ms(t);
+    println!("  slowest rule: {} {:.0} ms", slowest.1, slowest.0);
+    let t = Instant::now();
+    findings.extend(armature::team::run(team, &circuit, &a, &settings));
+    let t_team = ms(t);
+    let t = Instant::now();
+    let doc = armature::report::json::document(&findings, 1, 0, &settings.derating);
+    let json = serde_json::to_string_pretty(&doc).unwrap_or_default();
+    let t_render = ms(t);
+    println!(
+        "  {} parts, {} lines ({} input errors): parse {:.0} ms, elaborate {:.0} ms, graph {:.0} ms, analysis {:.0} ms, checks {:.0} ms{}, render {:.0} ms ({} findings, {} bytes); read+count-lines floor {:.1} ms",
+        circuit.parts.len(),
+        lines,
+        errs.len() + e2.len(),
+        t_parse,
+        t_elab,
+        t_graph,
+        t_an,
+        t_checks,
+        if team.is_empty() {
+            String::new()
+        } else {
+            format!(", {} team rules {:.0} ms", team.len(), t_team)
+        },
+        t_render,
+        findings.len(),
+        json.len(),
+        floor
+    );
+}
+
+fn main() {
+    let args: Vec<String> = std::env::args()
+        .skip(1)
+        .filter(|a| a != "--bench")
+        .collect();
+    let mut sizes: Vec<usize> = Vec::new();
+    let mut team_n = 0usize;
+    let mut render_n = 0usize;
+    let mut it = args.iter();
+    while let Some(a) = it.next() {
+        match a.as_str() {
+            "--team" => team_n = it.next().and_then(|x| x.parse().ok()).unwrap_or(1000),
+            "--render" => render_n = it.next().and_then(|x| x.parse().ok()).unwrap_or(10_000),
+            x => {
+                if let Ok(n) = x.parse() {
+                    sizes.push(n)
+                }
+            }
+        }
+    }
+    if sizes.is_empty() && render_n == 0 {
+        sizes = vec![16_000, 160_000, 1_600_000];
+    }
+    let dir = PathBuf::from("target/bench-gen");
+    let _ = std::fs::create_dir_all(&dir);
+    let _ = std::fs::write(dir.join("gen-parts.yaml"), generator::LIBRARY);
+    let team: Vec<Arc<armature::team::TeamRule>> = if team_n > 0 {
+        let f = SourceFile::new(
+            "gen-rules.yaml",
+            dir.join("gen-rules.yaml"),
+            generator::team_rules(team_n),
+        );
+        armature::team::load(&f)
+            .unwrap_or_default()
+            .into_iter()
+            .map(Arc::new)
+            .collect()
+    } else {
+        Vec::new()
+    };
+    let exe = PathBuf::from(env!("CARGO_BIN_EXE_armature"));
+    for &parts in &sizes {
+        let n = generator::channels_for(parts);
+        let path = dir.join(format!("gen-{parts}.drive"));
+        let _ = std::fs::write(&path, generator::netlist(n, "gen-parts.yaml"));
+        let bytes = std::fs::metadata(&path).map(|m| m.len()).unwrap_or(0);
+        println!(
+            "{parts} parts requested ({n} channels, {:.1} MB):",
+            bytes as f64 / 1e6
+        );
+        stages(&path, &team);
+        // the whole command, as a user runs it
+        let mut best = f64::MAX;
+        for _ in 0..3 {
+            let t = Instant::now();
+            let out = std::process::Command::new(&exe)
+                .args(["check", path.to_str().unwrap_or(""), "--format", "json"])
+                .output();
+            let dt = ms(t);
+            if out.is_ok() {
+                best = best.min(dt);
+            }
+        }
+        let t = Instant::now();
+        let text = std::fs::read_to_string(&path).unwrap_or_default();
+        let lines = text.lines().count();
+        let floor = ms(t);
+        println!(
+            "  armature check --format json: {best:.0} ms (best of 3), peak RSS so far {:.0} MiB; floor (read + count {lines} lines) {floor:.1} ms; ratio {:.0}×",
+            peak_rss_child_kib() as f64 / 1024.0,
+            best / floor.max(0.001)
+        );
+    }
+    if render_n > 0 {
+        // one big file with `render_n` findings: single-pin nets
+        let mut s = String::from("ground GND\n");
+        for i in 0..render_n {
+            s.push_str(&format!(
+                "resistor R{i} (LONELY_{i}, GND) 10k   # {}\n",
+                "x".repeat(760)
+            ));
+        }
+        let f = SourceFile::new("render.drive", "render.drive", s);
+        let r = armature::check_source(f.clone(), &Options::default(), &LibraryCache::default());
+        let rend = armature::report::human::Renderer::plain();
+        let t = Instant::now();
+        let mut total = 0usize;
+        for x in &r.findings {
+            total += rend.render(x).len();
+        }
+        println!(
+            "render: {} findings from a {:.1} MB file in {:.0} ms ({} bytes of output)",
+            r.findings.len(),
+            f.text.len() as f64 / 1e6,
+            ms(t),
+            total
+        );
+    }
+}
