@@ -7,6 +7,7 @@
 //! rules; `--render 10000` times rendering of 10,000 findings).
 
 #[path = "gen.rs"]
+#[allow(dead_code)] // the example uses the rest of the generator
 mod generator;
 
 use armature::model::library::LibraryCache;

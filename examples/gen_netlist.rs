@@ -2,6 +2,7 @@
 //! `cargo run --release --example gen_netlist -- PARTS OUT_DIR`
 
 #[path = "../benches/gen.rs"]
+#[allow(dead_code)] // the bench uses the rest of the generator
 mod generator;
 
 fn main() {
