@@ -170,3 +170,11 @@ fn primary_label_is_on_the_offending_line() {
     let rel = f.file.line_text(f.file.line_index(f.related[0].span.start));
     assert!(rel.starts_with("nmos Q1"), "{rel}");
 }
+
+#[test]
+fn docs_list_every_rule() {
+    let text = std::fs::read_to_string("docs/rules.md").unwrap_or_default();
+    for r in checks::registry() {
+        assert!(text.contains(&format!("`{}`", r.meta.id)), "docs/rules.md lacks {}", r.meta.id);
+    }
+}
