@@ -175,6 +175,10 @@ fn primary_label_is_on_the_offending_line() {
 fn docs_list_every_rule() {
     let text = std::fs::read_to_string("docs/rules.md").unwrap_or_default();
     for r in checks::registry() {
-        assert!(text.contains(&format!("`{}`", r.meta.id)), "docs/rules.md lacks {}", r.meta.id);
+        assert!(
+            text.contains(&format!("`{}`", r.meta.id)),
+            "docs/rules.md lacks {}",
+            r.meta.id
+        );
     }
 }

@@ -479,7 +479,11 @@ fn analyse_loads(
             let (Some(da), Some(dk)) = (dp.net_of("a"), dp.net_of("k")) else {
                 continue;
             };
-            if !((da == np && dk == nm) || (da == nm && dk == np)) {
+            // a diode across the load, or one that touches the load's
+            // switched end (one diode of a series freewheel path)
+            let switched = |n: NetId| (n == np || n == nm) && !c.net(n).is_fixed();
+            let across = (da == np && dk == nm) || (da == nm && dk == np);
+            if !(across || switched(da) || switched(dk)) {
                 continue;
             }
             let mut worst: f64 = 0.0;

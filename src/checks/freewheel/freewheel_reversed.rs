@@ -47,22 +47,29 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
             let dp = ctx.circuit.part(d);
             let (an, kn) = (net_name(ctx, d, "a"), net_name(ctx, d, "k"));
             let sw = l.switches.first().copied();
-            let through = sw
-                .map(|s| format!(" through `{}`", ref_of(ctx, s)))
-                .unwrap_or_default();
-            let mut f = on_part(
-                &META,
-                ctx,
-                d,
-                "conducts while the load is driven",
+            let lp = ctx.circuit.part(l.part);
+            let across = [lp.net_of("+"), lp.net_of("-")].contains(&dp.net_of("a"))
+                && [lp.net_of("+"), lp.net_of("-")].contains(&dp.net_of("k"));
+            let msg = if across {
+                let through = sw
+                    .map(|s| format!(" through `{}`", ref_of(ctx, s)))
+                    .unwrap_or_default();
                 format!(
                     "`{}` is forward-biased while `{}` is driven: it would carry {}{through}, shorting the supply",
                     dp.reference,
-                    ref_of(ctx, l.part),
+                    lp.reference,
                     a(i)
-                ),
-            );
-            f = with_part(f, ctx, l.part, "the load it is across".into());
+                )
+            } else {
+                format!(
+                    "`{}` is forward-biased by the supply and carries {} in the circuit of `{}`: fitted this way it bypasses the switch",
+                    dp.reference,
+                    a(i),
+                    lp.reference
+                )
+            };
+            let mut f = on_part(&META, ctx, d, "conducts while it should block", msg);
+            f = with_part(f, ctx, l.part, "the load".into());
             if let Some(s) = sw {
                 f = with_part(f, ctx, s, "conducts the short".into());
             }
