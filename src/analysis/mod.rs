@@ -191,11 +191,38 @@ pub fn analyze(c: &Circuit, g: &CircuitGraph, s: &Settings) -> Analysis {
             analyse_loads(c, s, gi, grp, &results, &mut a);
             analyse_legs(c, grp, &results, &mut a);
             analyse_diodes(c, grp, &results, &mut a);
+            if results.iter().any(|r| !r.converged) {
+                let names: Vec<&str> = grp
+                    .nets
+                    .iter()
+                    .take(3)
+                    .map(|&n| c.net(n).name.as_str())
+                    .collect();
+                let first = grp.parts.first().copied();
+                if let Some(p) = first {
+                    a.early.push(
+                        crate::finding::Finding::new(
+                            "analysis-nonconvergent",
+                            crate::finding::Severity::Warning,
+                            &c.file,
+                            c.part(p).span,
+                            format!(
+                                "the switching states around {} did not settle to a consistent state: results for these parts are approximate",
+                                names.iter().map(|n| format!("`{n}`")).collect::<Vec<_>>().join(", ")
+                            ),
+                        )
+                        .label("oscillating piecewise state")
+                        .help("check for a switch that turns itself off (a source follower driving its own gate network)")
+                        .parts([c.part(p).reference.clone()]),
+                    );
+                }
+            }
         }
     }
     a.groups = groups;
     rail_shorts(c, &mut a);
     thermal(c, s, &mut a);
+    diode_losses(c, &mut a);
     a
 }
 
@@ -524,6 +551,18 @@ fn analyse_loads(
                 Current,
                 Some(format!("peak-to-peak at duty {}", crate::units::percent(d))),
             );
+            // mean current at the largest duty, stalled (no back-EMF):
+            // (D·V - E)/R with E = 0
+            a.facts.set(
+                lid,
+                "i_mean",
+                physics::pwm_mean(v, r, f_pwm.1, 0.0),
+                Current,
+                Some(format!(
+                    "at duty {}, stalled",
+                    crate::units::percent(f_pwm.1)
+                )),
+            );
         }
         let scale = i_stall / solved;
         for (bi, _il, sw) in &per_dir {
@@ -708,6 +747,55 @@ fn analyse_diodes(c: &Circuit, grp: &Group, results: &[StateResult], a: &mut Ana
                 .facts
                 .missing(d, "v_rev", "its nets have no defined voltage in any state"),
         }
+    }
+}
+
+/// Freewheel diodes: average current over the off-time and conduction
+/// loss `P = vf·I_avg` (recovery loss `Qrr·V·f` where `qrr` is given).
+fn diode_losses(c: &Circuit, a: &mut Analysis) {
+    for (d, p) in c.parts.iter().enumerate() {
+        if !p.kind.is_diode() {
+            continue;
+        }
+        let Some(ifw) = a.facts.value(d, "i_fw") else {
+            continue;
+        };
+        let f = a.facts.value(d, "f_pwm").unwrap_or(0.0);
+        // the diode carries the load current while its switch is off;
+        // with the smallest duty that is most of the period
+        let duty_min = a
+            .loads
+            .iter()
+            .filter(|l| {
+                l.f_pwm > 0.0
+                    && a.turnoffs.iter().any(|t| {
+                        t.load == l.part && t.path.as_ref().is_some_and(|x| x.parts.contains(&d))
+                    })
+            })
+            .flat_map(|l| l.switches.iter())
+            .filter_map(|s| a.switches.get(s).map(|i| i.duty_min))
+            .fold(None, |m: Option<f64>, x| Some(m.map_or(x, |m| m.min(x))));
+        let i_avg = match duty_min {
+            Some(dm) if f > 0.0 => ifw * (1.0 - dm),
+            _ => ifw,
+        };
+        let vf = p.num("vf").unwrap_or(states::DIODE_VF);
+        let v_rev = a.facts.value(d, "v_rev").unwrap_or(0.0);
+        let p_rr = p.num("qrr").map(|q| q * v_rev * f).unwrap_or(0.0);
+        a.facts.set(
+            d,
+            "i_avg",
+            i_avg,
+            Current,
+            Some("load current over the off-time".into()),
+        );
+        a.facts.set(
+            d,
+            "p_loss",
+            vf * i_avg + p_rr,
+            Power,
+            Some("vf·I_avg + Qrr·V·f".into()),
+        );
     }
 }
 

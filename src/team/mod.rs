@@ -44,6 +44,16 @@ pub const FACTS: &[(&str, Dimension, &str)] = &[
         "diodes: freewheel current at the first turn-off (stall)",
     ),
     (
+        "i_mean",
+        Dimension::Current,
+        "loads: mean current at the largest duty, stalled",
+    ),
+    (
+        "i_avg",
+        Dimension::Current,
+        "diodes: average freewheel current over the off-time",
+    ),
+    (
         "i_b",
         Dimension::Current,
         "bipolar switches: lowest base current while on",
