@@ -44,10 +44,17 @@ the help line.
 
 pub const RULE: Rule = Rule { meta: &META, check };
 
-fn check(ctx: &Ctx) -> Vec<Finding> {
+/// A turn-off whose peak exceeds the switch's derated rating.
+pub struct Clamp<'a> {
+    pub turnoff: &'a crate::analysis::TurnOff,
+    pub path: &'a crate::analysis::freewheel::Path,
+    pub rating: f64,
+    pub limit: f64,
+}
+
+pub fn detect<'a>(ctx: &'a Ctx) -> Vec<Clamp<'a>> {
     let d = &ctx.settings.derating;
-    let mut out = Vec::new();
-    let mut seen = Vec::new();
+    let mut out: Vec<Clamp<'a>> = Vec::new();
     for tt in &ctx.analysis.turnoffs {
         let Some(path) = &tt.path else { continue };
         let p = ctx.circuit.part(tt.switch);
@@ -55,34 +62,49 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
             continue;
         };
         let limit = rating * d.voltage;
-        if tt.v_peak <= limit || seen.contains(&tt.switch) {
-            continue;
+        if tt.v_peak > limit && !out.iter().any(|c| c.turnoff.switch == tt.switch) {
+            out.push(Clamp {
+                turnoff: tt,
+                path,
+                rating,
+                limit,
+            });
         }
-        seen.push(tt.switch);
-        let mut f = on_part(
-            &META,
-            ctx,
-            tt.switch,
-            "blocks the clamp voltage",
-            format!(
-                "`{}` sees {} at turn-off (clamp {} {}), above {} of its {} rating ({})",
-                p.reference,
-                v(tt.v_peak),
-                v(path.v_loop),
-                path.describe(ctx.circuit),
-                pct(d.voltage),
-                v(rating),
-                v(limit)
-            ),
-        );
-        for &q in &path.parts {
-            f = with_part(f, ctx, q, "sets the clamp".into());
-        }
-        out.push(f.help(format!(
-            "use a switch rated at least {}, or lower the clamp so that the peak stays below {}",
-            v(tt.v_peak / d.voltage),
-            v(limit)
-        )));
     }
     out
+}
+
+fn check(ctx: &Ctx) -> Vec<Finding> {
+    let d = &ctx.settings.derating;
+    detect(ctx)
+        .into_iter()
+        .map(|k| {
+            let tt = k.turnoff;
+            let p = ctx.circuit.part(tt.switch);
+            let mut f = on_part(
+                &META,
+                ctx,
+                tt.switch,
+                "blocks the clamp voltage",
+                format!(
+                    "`{}` sees {} at turn-off (clamp {} {}), above {} of its {} rating ({})",
+                    p.reference,
+                    v(tt.v_peak),
+                    v(k.path.v_loop),
+                    k.path.describe(ctx.circuit),
+                    pct(d.voltage),
+                    v(k.rating),
+                    v(k.limit)
+                ),
+            );
+            for &q in &k.path.parts {
+                f = with_part(f, ctx, q, "sets the clamp".into());
+            }
+            f.help(format!(
+                "use a switch rated at least {}, or lower the clamp so that the peak stays below {}",
+                v(tt.v_peak / d.voltage),
+                v(k.limit)
+            ))
+        })
+        .collect()
 }

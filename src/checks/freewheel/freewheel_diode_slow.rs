@@ -40,7 +40,15 @@ help line.
 
 pub const RULE: Rule = Rule { meta: &META, check };
 
-fn check(ctx: &Ctx) -> Vec<Finding> {
+/// A PWM freewheel diode whose recovery is too slow.
+pub struct Slow {
+    pub diode: usize,
+    pub trr: f64,
+    pub f_pwm: f64,
+    pub limit: f64,
+}
+
+pub fn detect(ctx: &Ctx) -> Vec<Slow> {
     let mut out = Vec::new();
     for (i, p) in ctx.circuit.parts.iter().enumerate() {
         if p.kind != crate::model::Kind::Diode || p.word("type") == Some("schottky") {
@@ -50,29 +58,43 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
             continue;
         };
         let Some(trr) = p.num("trr") else { continue };
+        // 1 % of the period [memory: rule of thumb]
         let limit = 0.01 / f;
         if trr > limit {
-            out.push(
-                on_part(
-                    &META,
-                    ctx,
-                    i,
-                    "slow recovery",
-                    format!(
-                        "`{}` recovers in {}, more than 1 % of the {} period at {} ({})",
-                        p.reference,
-                        t(trr),
-                        t(1.0 / f),
-                        hz(f),
-                        t(limit)
-                    ),
-                )
-                .help(format!(
-                    "use a Schottky diode, or a fast diode with trr ≤ {}",
-                    t(limit)
-                )),
-            );
+            out.push(Slow {
+                diode: i,
+                trr,
+                f_pwm: f,
+                limit,
+            });
         }
     }
     out
+}
+
+fn check(ctx: &Ctx) -> Vec<Finding> {
+    detect(ctx)
+        .into_iter()
+        .map(|s| {
+            let p = ctx.circuit.part(s.diode);
+            on_part(
+                &META,
+                ctx,
+                s.diode,
+                "slow recovery",
+                format!(
+                    "`{}` recovers in {}, more than 1 % of the {} period at {} ({})",
+                    p.reference,
+                    t(s.trr),
+                    t(1.0 / s.f_pwm),
+                    hz(s.f_pwm),
+                    t(s.limit)
+                ),
+            )
+            .help(format!(
+                "use a Schottky diode, or a fast diode with trr ≤ {}",
+                t(s.limit)
+            ))
+        })
+        .collect()
 }

@@ -43,25 +43,41 @@ a switch with a higher `vgs_max`.
 
 pub const RULE: Rule = Rule { meta: &META, check };
 
-fn check(ctx: &Ctx) -> Vec<Finding> {
+/// A switch whose |V_GS| can exceed its derated gate rating.
+pub struct GateOver {
+    pub switch: usize,
+    pub vgs: f64,
+    pub rating: f64,
+    pub limit: f64,
+}
+
+pub fn detect(ctx: &Ctx) -> Vec<GateOver> {
     let d = &ctx.settings.derating;
-    let mut out = Vec::new();
     let mut ids: Vec<_> = ctx.analysis.switches.keys().copied().collect();
     ids.sort_unstable();
-    for sw in ids {
-        let Some(info) = ctx.analysis.switches.get(&sw) else {
-            continue;
-        };
-        let p = ctx.circuit.part(sw);
-        let (Some(vmax), Some(vgs)) = (p.num("vgs_max"), info.v_gs_abs_max) else {
-            continue;
-        };
-        let limit = vmax * d.gate_voltage;
-        if vgs <= limit {
-            continue;
-        }
-        let g = net_name(ctx, sw, "g");
-        out.push(
+    ids.into_iter()
+        .filter_map(|sw| {
+            let info = ctx.analysis.switches.get(&sw)?;
+            let p = ctx.circuit.part(sw);
+            let (rating, vgs) = (p.num("vgs_max")?, info.v_gs_abs_max?);
+            let limit = rating * d.gate_voltage;
+            (vgs > limit).then_some(GateOver {
+                switch: sw,
+                vgs,
+                rating,
+                limit,
+            })
+        })
+        .collect()
+}
+
+fn check(ctx: &Ctx) -> Vec<Finding> {
+    let d = &ctx.settings.derating;
+    detect(ctx)
+        .into_iter()
+        .map(|o| {
+            let p = ctx.circuit.part(o.switch);
+            let g = net_name(ctx, o.switch, "g");
             crate::checks::finding(
                 &META,
                 ctx,
@@ -69,20 +85,19 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
                 format!(
                     "`{}` can see {} gate-source, above {} of its ±{} rating ({})",
                     p.reference,
-                    v(vgs),
+                    v(o.vgs),
                     pct(d.gate_voltage),
-                    v(vmax),
-                    v(limit)
+                    v(o.rating),
+                    v(o.limit)
                 ),
             )
-            .label(format!("|V_GS| up to {}", v(vgs)))
+            .label(format!("|V_GS| up to {}", v(o.vgs)))
             .parts([p.reference.clone()])
             .help(format!(
                 "limit the swing of `{g}` to ≤ {} with a divider or a Zener from gate to source, or use a switch rated ≥ {}",
-                v(limit),
-                v(vgs / d.gate_voltage)
-            )),
-        );
-    }
-    out
+                v(o.limit),
+                v(o.vgs / d.gate_voltage)
+            ))
+        })
+        .collect()
 }

@@ -45,61 +45,75 @@ high-side driver.
 
 pub const RULE: Rule = Rule { meta: &META, check };
 
-fn check(ctx: &Ctx) -> Vec<Finding> {
+/// A switch that conducts in every high/low pin state.
+pub struct StuckOn {
+    pub switch: usize,
+    /// Its source potential when fixed (a high side on a rail).
+    pub source_v: Option<f64>,
+    pub group: usize,
+}
+
+pub fn detect(ctx: &Ctx) -> Vec<StuckOn> {
     let c = ctx.circuit;
-    let mut out = Vec::new();
     let mut ids: Vec<_> = ctx.analysis.switches.keys().copied().collect();
     ids.sort_unstable();
-    for sw in ids {
-        let Some(info) = ctx.analysis.switches.get(&sw) else {
-            continue;
-        };
-        let grp = ctx.analysis.groups.get(info.group);
-        if grp.is_none_or(|g| g.pins.is_empty())
-            || info.hl_states == 0
-            || info.on_states < info.hl_states
-        {
-            continue;
-        }
-        let p = c.part(sw);
-        let (_, ctl, rpin) = p.kind.switch_pins().unwrap_or(("d", "g", "s"));
-        let s_net = net_name(ctx, sw, rpin);
-        let vs = p.net_of(rpin).and_then(|n| c.net(n).fixed_max());
-        let mut f = crate::checks::finding(
-            &META,
-            ctx,
-            pin_span(ctx, p, ctl),
-            format!(
-                "`{}` is on in every controller pin state{}: nothing turns it off",
-                p.reference,
-                vs.map(|x| format!(" (its source sits at {} on `{s_net}`)", v(x)))
-                    .unwrap_or_default()
-            ),
-        )
-        .label("cannot reach the off level")
-        .parts([p.reference.clone()]);
-        if let Some(g) = grp {
-            for (m, pin) in g.pins.iter().take(4) {
-                f = with_part(
-                    f,
-                    ctx,
-                    *m,
-                    format!(
-                        "`{}.{pin}` swings only 0–{}",
-                        ref_of(ctx, *m),
-                        v(crate::analysis::states::io_v(c, *m))
-                    ),
-                );
+    ids.into_iter()
+        .filter_map(|sw| {
+            let info = ctx.analysis.switches.get(&sw)?;
+            let grp = ctx.analysis.groups.get(info.group)?;
+            if grp.pins.is_empty() || info.hl_states == 0 || info.on_states < info.hl_states {
+                return None;
             }
-        }
-        let help = if p.kind.is_p_type() {
-            format!(
-                "drive the gate through an inverting level shifter: an npn or n-channel pulling the gate low, with a pull-up of 10 kΩ from the gate to `{s_net}`"
+            let p = c.part(sw);
+            let (_, _, rpin) = p.kind.switch_pins()?;
+            let source_v = p.net_of(rpin).and_then(|n| c.net(n).fixed_max());
+            Some(StuckOn {
+                switch: sw,
+                source_v,
+                group: info.group,
+            })
+        })
+        .collect()
+}
+
+fn check(ctx: &Ctx) -> Vec<Finding> {
+    let c = ctx.circuit;
+    detect(ctx)
+        .into_iter()
+        .map(|s| {
+            let p = c.part(s.switch);
+            let (_, ctl, rpin) = p.kind.switch_pins().unwrap_or(("d", "g", "s"));
+            let s_net = net_name(ctx, s.switch, rpin);
+            let mut f = crate::checks::finding(
+                &META,
+                ctx,
+                pin_span(ctx, p, ctl),
+                format!(
+                    "`{}` is on in every controller pin state{}: nothing turns it off",
+                    p.reference,
+                    s.source_v.map(|x| format!(" (its source sits at {} on `{s_net}`)", v(x))).unwrap_or_default()
+                ),
             )
-        } else {
-            "drive the gate from a gate driver referenced to the switch's source".to_string()
-        };
-        out.push(f.help(help));
-    }
-    out
+            .label("cannot reach the off level")
+            .parts([p.reference.clone()]);
+            if let Some(g) = ctx.analysis.groups.get(s.group) {
+                for (m, pin) in g.pins.iter().take(4) {
+                    f = with_part(
+                        f,
+                        ctx,
+                        *m,
+                        format!("`{}.{pin}` swings only 0–{}", ref_of(ctx, *m), v(crate::analysis::states::io_v(c, *m))),
+                    );
+                }
+            }
+            let help = if p.kind.is_p_type() {
+                format!(
+                    "drive the gate through an inverting level shifter: an npn or n-channel pulling the gate low, with a pull-up of 10 kΩ from the gate to `{s_net}`"
+                )
+            } else {
+                "drive the gate from a gate driver referenced to the switch's source".to_string()
+            };
+            f.help(help)
+        })
+        .collect()
 }

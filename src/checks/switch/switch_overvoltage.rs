@@ -39,7 +39,15 @@ Choose a switch rated at least the voltage in the help line.
 
 pub const RULE: Rule = Rule { meta: &META, check };
 
-fn check(ctx: &Ctx) -> Vec<Finding> {
+/// A switch that blocks more than its derated rating.
+pub struct Overvoltage {
+    pub switch: usize,
+    pub blocked: f64,
+    pub rating: f64,
+    pub limit: f64,
+}
+
+pub fn detect(ctx: &Ctx) -> Vec<Overvoltage> {
     let d = &ctx.settings.derating;
     let a_ = ctx.analysis;
     let mut out = Vec::new();
@@ -53,30 +61,43 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
         let (Some(mn), Some(rn)) = (p.net_of(m), p.net_of(r)) else {
             continue;
         };
-        let vm = (a_.net_vmax[mn].unwrap_or(0.0) - a_.net_vmin[rn].unwrap_or(0.0))
+        let blocked = (a_.net_vmax[mn].unwrap_or(0.0) - a_.net_vmin[rn].unwrap_or(0.0))
             .abs()
             .max((a_.net_vmax[rn].unwrap_or(0.0) - a_.net_vmin[mn].unwrap_or(0.0)).abs());
         let limit = rating * d.voltage;
-        if vm <= limit {
-            continue;
+        if blocked > limit {
+            out.push(Overvoltage {
+                switch: i,
+                blocked,
+                rating,
+                limit,
+            });
         }
-        out.push(
+    }
+    out
+}
+
+fn check(ctx: &Ctx) -> Vec<Finding> {
+    let d = &ctx.settings.derating;
+    detect(ctx)
+        .into_iter()
+        .map(|o| {
+            let p = ctx.circuit.part(o.switch);
             on_part(
                 &META,
                 ctx,
-                i,
+                o.switch,
                 "blocking rating too low",
                 format!(
                     "`{}` blocks up to {} with the rails at their maximum, above {} of its {} rating ({})",
                     p.reference,
-                    v(vm),
+                    v(o.blocked),
                     pct(d.voltage),
-                    v(rating),
-                    v(limit)
+                    v(o.rating),
+                    v(o.limit)
                 ),
             )
-            .help(format!("use a switch rated at least {}", v(vm / d.voltage))),
-        );
-    }
-    out
+            .help(format!("use a switch rated at least {}", v(o.blocked / d.voltage)))
+        })
+        .collect()
 }
