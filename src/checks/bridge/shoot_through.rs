@@ -45,11 +45,27 @@ with shoot-through protection, or gate logic that cannot turn both on.
 
 pub const RULE: Rule = Rule { meta: &META, check };
 
+/// Legs with a pin assignment that turns both switches on.
+pub fn detect<'a>(
+    ctx: &'a Ctx,
+) -> Vec<(
+    &'a crate::analysis::Leg,
+    &'a [(
+        crate::analysis::states::CtlPin,
+        crate::analysis::states::PinState,
+    )],
+)> {
+    ctx.analysis
+        .legs
+        .iter()
+        .filter_map(|l| l.both_on.as_deref().map(|a| (l, a)))
+        .collect()
+}
+
 fn check(ctx: &Ctx) -> Vec<Finding> {
     let c = ctx.circuit;
     let mut out = Vec::new();
-    for leg in &ctx.analysis.legs {
-        let Some(assign) = &leg.both_on else { continue };
+    for (leg, assign) in detect(ctx) {
         let states = assign
             .iter()
             .map(|((m, pin), s)| {

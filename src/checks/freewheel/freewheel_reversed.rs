@@ -40,10 +40,19 @@ cathode on the supply end.
 
 pub const RULE: Rule = Rule { meta: &META, check };
 
+/// (load info, diode, forward current while the load is driven)
+pub fn detect<'a>(ctx: &'a Ctx) -> Vec<(&'a crate::analysis::LoadInfo, usize, f64)> {
+    ctx.analysis
+        .loads
+        .iter()
+        .flat_map(|l| l.reversed.iter().map(move |&(d, i)| (l, d, i)))
+        .collect()
+}
+
 fn check(ctx: &Ctx) -> Vec<Finding> {
     let mut out = Vec::new();
-    for l in &ctx.analysis.loads {
-        for &(d, i) in &l.reversed {
+    {
+        for (l, d, i) in detect(ctx) {
             let dp = ctx.circuit.part(d);
             let (an, kn) = (net_name(ctx, d, "a"), net_name(ctx, d, "k"));
             let sw = l.switches.first().copied();

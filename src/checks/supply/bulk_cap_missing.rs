@@ -42,9 +42,10 @@ maximum) from the rail to ground near the load's switches.
 
 pub const RULE: Rule = Rule { meta: &META, check };
 
-fn check(ctx: &Ctx) -> Vec<Finding> {
+/// Rails that feed an inductive load and have no capacitor: (rail, load).
+pub fn detect(ctx: &Ctx) -> Vec<(usize, usize)> {
     let c = ctx.circuit;
-    let mut rails: Vec<(usize, usize)> = Vec::new(); // (rail net, load)
+    let mut rails: Vec<(usize, usize)> = Vec::new();
     for l in &ctx.analysis.loads {
         let mut parts = vec![l.part];
         parts.extend(l.switches.iter().copied());
@@ -59,18 +60,22 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
         }
     }
     rails.sort_unstable();
-    let mut out = Vec::new();
-    for (net, load) in rails {
-        let has = ctx.graph.parts_on(net).map(|q| c.part(q)).any(|p| {
+    rails.retain(|&(net, _)| {
+        !ctx.graph.parts_on(net).map(|q| c.part(q)).any(|p| {
             p.kind == Kind::Capacitor
                 && p.pins.iter().any(|x| x.net == net)
                 && p.pins
                     .iter()
                     .any(|x| x.net != net && c.net(x.net).is_fixed())
-        });
-        if has {
-            continue;
-        }
+        })
+    });
+    rails
+}
+
+fn check(ctx: &Ctx) -> Vec<Finding> {
+    let c = ctx.circuit;
+    let mut out = Vec::new();
+    for (net, load) in detect(ctx) {
         let n = c.net(net);
         let f = crate::checks::finding(
             &META,

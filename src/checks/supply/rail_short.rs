@@ -41,9 +41,13 @@ the rail's maximum.
 
 pub const RULE: Rule = Rule { meta: &META, check };
 
+/// Parts between fixed nets that conduct, with how.
+pub fn detect<'a>(ctx: &'a Ctx) -> &'a [(usize, String)] {
+    &ctx.analysis.rail_shorts
+}
+
 fn check(ctx: &Ctx) -> Vec<Finding> {
-    ctx.analysis
-        .rail_shorts
+    detect(ctx)
         .iter()
         .map(|(pid, how)| {
             let p = ctx.circuit.part(*pid);

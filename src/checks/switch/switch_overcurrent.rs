@@ -43,70 +43,96 @@ stall current (a current-sense cut-off, a series resistance).
 
 pub const RULE: Rule = Rule { meta: &META, check };
 
-fn check(ctx: &Ctx) -> Vec<Finding> {
+/// A switch whose stall current exceeds its derated rating.
+pub struct Overcurrent {
+    pub switch: usize,
+    pub load: Option<usize>,
+    pub i_on: f64,
+    pub rating: f64,
+    pub limit: f64,
+}
+
+pub fn detect(ctx: &Ctx) -> Vec<Overcurrent> {
     let d = &ctx.settings.derating;
-    let mut out = Vec::new();
     let mut load_of = std::collections::HashMap::new();
     for t in &ctx.analysis.turnoffs {
         load_of.entry(t.switch).or_insert(t.load);
     }
+    let mut out = Vec::new();
     for (i, p) in ctx.circuit.parts.iter().enumerate() {
         if !p.kind.is_switch() {
             continue;
         }
-        let Some(ion) = ctx.analysis.facts.value(i, "i_on") else {
+        let Some(i_on) = ctx.analysis.facts.value(i, "i_on") else {
             continue;
         };
         let Some(rating) = p.num("id_max").or(p.num("ic_max")) else {
             continue;
         };
         let limit = rating * d.current;
-        if ion <= limit {
-            continue;
+        if i_on > limit {
+            out.push(Overcurrent {
+                switch: i,
+                load: load_of.get(&i).copied(),
+                i_on,
+                rating,
+                limit,
+            });
         }
-        let load = load_of.get(&i).copied();
-        let why = load
-            .and_then(|l| {
-                let lp = ctx.circuit.part(l);
-                let r = lp.num("r")? * (1.0 - lp.num("r_tol").unwrap_or(0.0));
-                let vr = [lp.net_of("+"), lp.net_of("-")]
-                    .into_iter()
-                    .flatten()
-                    .filter_map(|n| ctx.circuit.net(n).fixed_max())
-                    .fold(0.0f64, |x, y| x.max(y.abs()));
-                if lp.num("i_stall").is_some() {
-                    Some(format!("given stall current of `{}`", lp.reference))
-                } else {
-                    Some(format!(
-                        "stall of `{}` ≈ {} / {}",
-                        lp.reference,
-                        v(vr),
-                        ohm(r)
-                    ))
-                }
-            })
-            .unwrap_or_else(|| "worst-case on-state current".to_string());
-        let mut f = on_part(
-            &META,
-            ctx,
-            i,
-            "current rating too low",
-            format!(
-                "{} ({why}) exceeds {} of `{}`'s {} rating ({})",
-                a(ion),
-                pct(d.current),
-                p.reference,
-                a(rating),
-                a(limit)
-            ),
-        );
-        if let Some(l) = load {
-            f = with_part(f, ctx, l, "the load at stall".into());
-        }
-        out.push(f.help(format!(
-            "use a switch rated at least {} continuous, or limit the stall current",
-            a(ion / d.current)
-        )));
     }
     out
+}
+
+fn check(ctx: &Ctx) -> Vec<Finding> {
+    let d = &ctx.settings.derating;
+    detect(ctx)
+        .into_iter()
+        .map(|o| {
+            let p = ctx.circuit.part(o.switch);
+            let why = o
+                .load
+                .and_then(|l| {
+                    let lp = ctx.circuit.part(l);
+                    let r = lp.num("r")? * (1.0 - lp.num("r_tol").unwrap_or(0.0));
+                    let vr = [lp.net_of("+"), lp.net_of("-")]
+                        .into_iter()
+                        .flatten()
+                        .chain(p.pins.iter().map(|x| x.net))
+                        .filter_map(|n| ctx.circuit.net(n).fixed_max())
+                        .fold(0.0f64, |x, y| x.max(y.abs()));
+                    if lp.num("i_stall").is_some() {
+                        Some(format!("given stall current of `{}`", lp.reference))
+                    } else {
+                        Some(format!(
+                            "stall of `{}` ≈ {} / {}",
+                            lp.reference,
+                            v(vr),
+                            ohm(r)
+                        ))
+                    }
+                })
+                .unwrap_or_else(|| "worst-case on-state current".to_string());
+            let mut f = on_part(
+                &META,
+                ctx,
+                o.switch,
+                "current rating too low",
+                format!(
+                    "{} ({why}) exceeds {} of `{}`'s {} rating ({})",
+                    a(o.i_on),
+                    pct(d.current),
+                    p.reference,
+                    a(o.rating),
+                    a(o.limit)
+                ),
+            );
+            if let Some(l) = o.load {
+                f = with_part(f, ctx, l, "the load at stall".into());
+            }
+            f.help(format!(
+                "use a switch rated at least {} continuous, or limit the stall current",
+                a(o.i_on / d.current)
+            ))
+        })
+        .collect()
 }

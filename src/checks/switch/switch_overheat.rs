@@ -45,7 +45,17 @@ frequency.
 
 pub const RULE: Rule = Rule { meta: &META, check };
 
-fn check(ctx: &Ctx) -> Vec<Finding> {
+/// A switch whose junction runs above its limit less the margin.
+pub struct Overheat {
+    pub switch: usize,
+    pub tj: f64,
+    pub p_loss: f64,
+    pub tj_max: f64,
+    pub limit: f64,
+    pub runaway: bool,
+}
+
+pub fn detect(ctx: &Ctx) -> Vec<Overheat> {
     let d = &ctx.settings.derating;
     let f_ = &ctx.analysis.facts;
     let mut out = Vec::new();
@@ -53,49 +63,65 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
         if !p.kind.is_switch() {
             continue;
         }
-        let (Some(tj), Some(pw)) = (f_.value(i, "tj"), f_.value(i, "p_loss")) else {
+        let (Some(tj), Some(p_loss)) = (f_.value(i, "tj"), f_.value(i, "p_loss")) else {
             continue;
         };
         let tj_max = p.num("tj_max").unwrap_or(150.0);
         let limit = tj_max - d.tj_margin;
-        if tj <= limit {
-            continue;
+        if tj > limit {
+            let runaway = f_
+                .get(i, "tj")
+                .and_then(|x| x.note.as_deref())
+                .is_some_and(|n| n.contains("runaway"));
+            out.push(Overheat {
+                switch: i,
+                tj,
+                p_loss,
+                tj_max,
+                limit,
+                runaway,
+            });
         }
-        let runaway = f_
-            .get(i, "tj")
-            .and_then(|x| x.note.as_deref())
-            .is_some_and(|n| n.contains("runaway"));
-        let msg = if runaway {
-            format!(
-                "`{}` has no stable junction temperature: its loss grows faster than {} K/W removes it (thermal runaway, {} at the limit)",
-                p.reference,
-                crate::units::sig3(p.num("rth_ja").unwrap_or(0.0)),
-                w(pw)
-            )
-        } else {
-            format!(
-                "`{}` reaches {} junction ({} at {} ambient), above {} = {} - {} margin",
-                p.reference,
-                degc(tj),
-                w(pw),
-                degc(ctx.settings.ambient),
-                degc(limit),
-                degc(tj_max),
-                crate::units::sig3(d.tj_margin)
-            )
-        };
-        let rth = p.num("rth_ja").unwrap_or(0.0);
-        let help = if rth > 0.0 && !runaway && pw > 0.0 {
-            format!(
-                "keep P·Rth below {}: a switch with lower R_DS(on), or a thermal path under {} K/W",
-                degc(limit - ctx.settings.ambient),
-                crate::units::sig3((limit - ctx.settings.ambient) / pw)
-            )
-        } else {
-            "use a switch with lower R_DS(on) or a better thermal path, or lower the current"
-                .to_string()
-        };
-        out.push(on_part(&META, ctx, i, "runs too hot", msg).help(help));
     }
     out
+}
+
+fn check(ctx: &Ctx) -> Vec<Finding> {
+    let d = &ctx.settings.derating;
+    detect(ctx)
+        .into_iter()
+        .map(|o| {
+            let p = ctx.circuit.part(o.switch);
+            let rth = p.num("rth_ja").unwrap_or(0.0);
+            let msg = if o.runaway {
+                format!(
+                    "`{}` has no stable junction temperature: its loss grows faster than {} K/W removes it (thermal runaway, {} at the limit)",
+                    p.reference,
+                    crate::units::sig3(rth),
+                    w(o.p_loss)
+                )
+            } else {
+                format!(
+                    "`{}` reaches {} junction ({} at {} ambient), above {} = {} - {} margin",
+                    p.reference,
+                    degc(o.tj),
+                    w(o.p_loss),
+                    degc(ctx.settings.ambient),
+                    degc(o.limit),
+                    degc(o.tj_max),
+                    crate::units::sig3(d.tj_margin)
+                )
+            };
+            let help = if rth > 0.0 && !o.runaway && o.p_loss > 0.0 {
+                format!(
+                    "keep P·Rth below {}: a switch with lower R_DS(on), or a thermal path under {} K/W",
+                    degc(o.limit - ctx.settings.ambient),
+                    crate::units::sig3((o.limit - ctx.settings.ambient) / o.p_loss)
+                )
+            } else {
+                "use a switch with lower R_DS(on) or a better thermal path, or lower the current".to_string()
+            };
+            on_part(&META, ctx, o.switch, "runs too hot", msg).help(help)
+        })
+        .collect()
 }
