@@ -105,6 +105,9 @@ pub struct Analysis {
     pub rail_shorts: Vec<(PartId, String)>,
     /// Groups whose pins exceed the enumeration limit.
     pub truncated: Vec<usize>,
+    /// Smallest on-duty of the PWM switches whose turn-off a diode
+    /// freewheels (its off-time is the rest of the period).
+    pub diode_duty_min: HashMap<PartId, f64>,
 }
 
 impl std::fmt::Debug for Group {
@@ -605,6 +608,12 @@ fn analyse_loads(
                             a.facts.set(d, "i_fw_peak", prev.max(i_q), Current, None);
                             let fp = a.facts.value(d, "f_pwm").unwrap_or(0.0);
                             a.facts.set(d, "f_pwm", fp.max(f_pwm.0), Frequency, None);
+                            if f_pwm.0 > 0.0 {
+                                if let Some(dm) = a.switches.get(&q).map(|i| i.duty_min) {
+                                    let e = a.diode_duty_min.entry(d).or_insert(dm);
+                                    *e = e.min(dm);
+                                }
+                            }
                         }
                     }
                 }
@@ -763,18 +772,7 @@ fn diode_losses(c: &Circuit, a: &mut Analysis) {
         let f = a.facts.value(d, "f_pwm").unwrap_or(0.0);
         // the diode carries the load current while its switch is off;
         // with the smallest duty that is most of the period
-        let duty_min = a
-            .loads
-            .iter()
-            .filter(|l| {
-                l.f_pwm > 0.0
-                    && a.turnoffs.iter().any(|t| {
-                        t.load == l.part && t.path.as_ref().is_some_and(|x| x.parts.contains(&d))
-                    })
-            })
-            .flat_map(|l| l.switches.iter())
-            .filter_map(|s| a.switches.get(s).map(|i| i.duty_min))
-            .fold(None, |m: Option<f64>, x| Some(m.map_or(x, |m| m.min(x))));
+        let duty_min = a.diode_duty_min.get(&d).copied();
         let i_avg = match duty_min {
             Some(dm) if f > 0.0 => ifw * (1.0 - dm),
             _ => ifw,
