@@ -12,6 +12,7 @@ pub mod analysis;
 pub mod checks;
 pub mod cli;
 pub mod config;
+pub mod fasthash;
 pub mod finding;
 pub mod graph;
 pub mod model;

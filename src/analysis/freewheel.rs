@@ -16,10 +16,11 @@
 use super::TurnOff;
 use super::physics;
 use super::states::{self, Group, StateResult};
+use crate::fasthash::FastMap as HashMap;
 use crate::model::{Circuit, Kind, NetId, PartId};
 use crate::settings::Settings;
 use std::cmp::Ordering;
-use std::collections::{BinaryHeap, HashMap};
+use std::collections::BinaryHeap;
 
 /// Output capacitance assumed when `coss` is not given: 100 pF [memory].
 pub const DEFAULT_COSS: f64 = 100e-12;
@@ -88,7 +89,7 @@ type Hop = (NetId, NetId, f64);
 type Dist = HashMap<NetId, (f64, Option<(NetId, PartId)>)>;
 
 fn dijkstra(adj: &HashMap<NetId, Vec<Edge>>, from: NetId) -> Dist {
-    let mut dist: Dist = HashMap::new();
+    let mut dist: Dist = HashMap::default();
     let mut heap = BinaryHeap::new();
     dist.insert(from, (0.0, None));
     heap.push(Item(0.0, from));
@@ -142,8 +143,8 @@ pub fn turn_off(
     // the current leaves the load at `-` when it flows + → -
     let (leave, enter) = if il >= 0.0 { (nm, np) } else { (np, nm) };
     // forward and reverse adjacency
-    let mut fwd: HashMap<NetId, Vec<Edge>> = HashMap::new();
-    let mut rev: HashMap<NetId, Vec<Edge>> = HashMap::new();
+    let mut fwd: HashMap<NetId, Vec<Edge>> = HashMap::default();
+    let mut rev: HashMap<NetId, Vec<Edge>> = HashMap::default();
     let mut add = |a: NetId, b: NetId, drop: f64, part: PartId| {
         if a == b || !drop.is_finite() {
             return;

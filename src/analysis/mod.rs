@@ -11,13 +11,13 @@ pub mod states;
 
 pub use facts::{Fact, Facts};
 
+use crate::fasthash::FastMap as HashMap;
 use crate::finding::Finding;
 use crate::graph::CircuitGraph;
 use crate::model::{Circuit, DriveKind, Kind, NetId, PartId};
 use crate::settings::Settings;
 use crate::units::Dimension::*;
 use states::{CtlPin, Group, PinState, StateResult};
-use std::collections::HashMap;
 
 /// What the analysis learnt about a switch's control.
 #[derive(Clone, Debug, Default)]
@@ -608,11 +608,11 @@ fn analyse_loads(
                             a.facts.set(d, "i_fw_peak", prev.max(i_q), Current, None);
                             let fp = a.facts.value(d, "f_pwm").unwrap_or(0.0);
                             a.facts.set(d, "f_pwm", fp.max(f_pwm.0), Frequency, None);
-                            if f_pwm.0 > 0.0 {
-                                if let Some(dm) = a.switches.get(&q).map(|i| i.duty_min) {
-                                    let e = a.diode_duty_min.entry(d).or_insert(dm);
-                                    *e = e.min(dm);
-                                }
+                            if f_pwm.0 > 0.0
+                                && let Some(dm) = a.switches.get(&q).map(|i| i.duty_min)
+                            {
+                                let e = a.diode_duty_min.entry(d).or_insert(dm);
+                                *e = e.min(dm);
                             }
                         }
                     }

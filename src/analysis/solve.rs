@@ -8,8 +8,8 @@
 //! every node keeps floating nodes solvable; which nodes float is decided
 //! apart, from connectivity (see `Network::floating`).
 
+use crate::fasthash::FastMap as HashMap;
 use crate::model::NetId;
-use std::collections::HashMap;
 
 /// Conductance that keeps floating nodes solvable (S).
 pub const GMIN: f64 = 1e-12;

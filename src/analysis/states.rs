@@ -5,9 +5,9 @@
 //! piecewise devices (switches, diodes, driver outputs).
 
 use super::solve::Network;
+use crate::fasthash::{FastMap as HashMap, FastSet as HashSet};
 use crate::graph::CircuitGraph;
 use crate::model::{Circuit, Kind, NetId, NetKind, PartId};
-use std::collections::{HashMap, HashSet};
 
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 pub enum PinState {
@@ -114,7 +114,7 @@ pub fn groups(c: &Circuit, g: &CircuitGraph) -> Vec<Group> {
             }
         }
     }
-    let mut by_root: HashMap<usize, usize> = HashMap::new();
+    let mut by_root: HashMap<usize, usize> = HashMap::default();
     let mut out: Vec<Group> = Vec::new();
     for i in 0..n {
         let r = uf.find(i);
@@ -131,7 +131,7 @@ pub fn groups(c: &Circuit, g: &CircuitGraph) -> Vec<Group> {
         out[gi].nets.extend(g.islands[i].iter().copied());
     }
     for grp in &mut out {
-        let mut seen = HashSet::new();
+        let mut seen = HashSet::default();
         for &net in &grp.nets {
             for pid in g.parts_on(net) {
                 if seen.insert(pid) {
@@ -278,9 +278,9 @@ pub fn solve_state_forced(
     force_off: &[PartId],
 ) -> StateResult {
     let fixed = &c.fixed_nets;
-    let mut switch_on: HashMap<PartId, bool> = HashMap::new();
-    let mut diode_on: HashMap<PartId, bool> = HashMap::new();
-    let mut drv_high: HashMap<(PartId, bool), bool> = HashMap::new();
+    let mut switch_on: HashMap<PartId, bool> = HashMap::default();
+    let mut diode_on: HashMap<PartId, bool> = HashMap::default();
+    let mut drv_high: HashMap<(PartId, bool), bool> = HashMap::default();
     let pin_state: HashMap<(PartId, &str), PinState> = grp
         .pins
         .iter()
@@ -296,8 +296,8 @@ pub fn solve_state_forced(
         );
         let x = net.solve().unwrap_or_else(|| vec![0.0; grp.nets.len()]);
         let floating = net.floating();
-        let mut volts = HashMap::with_capacity(grp.nets.len());
-        let mut fl = HashSet::new();
+        let mut volts = HashMap::with_capacity_and_hasher(grp.nets.len(), Default::default());
+        let mut fl = HashSet::default();
         for (i, &id) in grp.nets.iter().enumerate() {
             let v = x.get(i).copied().unwrap_or(0.0);
             volts.insert(id, v);
@@ -311,8 +311,8 @@ pub fn solve_state_forced(
             floating: fl,
             switch_on: switch_on.clone(),
             diode_on: diode_on.clone(),
-            current: HashMap::new(),
-            pin_current: HashMap::new(),
+            current: HashMap::default(),
+            pin_current: HashMap::default(),
             converged: false,
         };
         // update piecewise states
@@ -387,12 +387,12 @@ pub fn solve_state_forced(
     }
     let mut st = last.unwrap_or(StateResult {
         assignment: assign.to_vec(),
-        volts: HashMap::new(),
-        floating: HashSet::new(),
+        volts: HashMap::default(),
+        floating: HashSet::default(),
         switch_on,
         diode_on,
-        current: HashMap::new(),
-        pin_current: HashMap::new(),
+        current: HashMap::default(),
+        pin_current: HashMap::default(),
         converged: false,
     });
     st.converged = converged;
