@@ -59,15 +59,16 @@ pub struct Missing {
 pub fn detect(ctx: &Ctx) -> Vec<Missing> {
     let a = ctx.analysis;
     let mut out: Vec<Missing> = Vec::new();
+    let mut seen = std::collections::HashSet::new();
+    // a reversed diode is reported by its own rule
+    let reversed: std::collections::HashSet<usize> = a
+        .loads
+        .iter()
+        .filter(|l| !l.reversed.is_empty())
+        .map(|l| l.part)
+        .collect();
     for t in &a.turnoffs {
-        if t.path.is_some() || out.iter().any(|m| m.load == t.load) {
-            continue;
-        }
-        // a reversed diode is reported by its own rule
-        if a.loads
-            .iter()
-            .any(|l| l.part == t.load && !l.reversed.is_empty())
-        {
+        if t.path.is_some() || reversed.contains(&t.load) || !seen.insert(t.load) {
             continue;
         }
         out.push(Missing {
