@@ -36,9 +36,14 @@ Renumber the second part.
 
 pub const RULE: Rule = Rule { meta: &META, check };
 
+/// (first part, part that reuses its designator)
+pub fn detect<'a>(ctx: &'a Ctx) -> &'a [(usize, usize)] {
+    &ctx.circuit.duplicates
+}
+
 fn check(ctx: &Ctx) -> Vec<Finding> {
     let c = ctx.circuit;
-    c.duplicates
+    detect(ctx)
         .iter()
         .map(|&(first, dup)| {
             let a = c.part(first);
@@ -54,5 +59,5 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
             .help("give this part a designator of its own")
             .parts([b.reference.clone()])
         })
-        .collect::<Vec<Finding>>()
+        .collect()
 }

@@ -35,36 +35,48 @@ Connect the second pin to the net it should reach.
 
 pub const RULE: Rule = Rule { meta: &META, check };
 
+/// Two-terminal parts with both pins on one net: (part, net).
+pub fn detect(ctx: &Ctx) -> Vec<(usize, usize)> {
+    ctx.circuit
+        .parts
+        .iter()
+        .enumerate()
+        .filter(|(_, p)| {
+            (p.kind.is_inductive_load()
+                || p.kind.is_diode()
+                || matches!(
+                    p.kind,
+                    crate::model::Kind::Resistor | crate::model::Kind::Capacitor
+                ))
+                && p.pins.len() == 2
+                && p.pins[0].net == p.pins[1].net
+        })
+        .map(|(i, p)| (i, p.pins[0].net))
+        .collect()
+}
+
 fn check(ctx: &Ctx) -> Vec<Finding> {
     let c = ctx.circuit;
-    let mut out = Vec::new();
-    for p in &c.parts {
-        let two = p.kind.is_inductive_load()
-            || p.kind.is_diode()
-            || matches!(
-                p.kind,
-                crate::model::Kind::Resistor | crate::model::Kind::Capacitor
-            );
-        if !two || p.pins.len() != 2 {
-            continue;
-        }
-        if p.pins[0].net == p.pins[1].net {
-            let net = &c.net(p.pins[0].net).name;
-            out.push(
-                finding(
-                    &META,
-                    ctx,
-                    p.pins_span,
-                    format!("both pins of `{}` are on net `{net}`", p.reference),
-                )
-                .label("shorted")
-                .help(format!(
-                    "connect one pin of `{}` to the net it should reach",
-                    p.reference
-                ))
-                .parts([p.reference.clone()]),
-            );
-        }
-    }
-    out
+    detect(ctx)
+        .into_iter()
+        .map(|(i, net)| {
+            let p = c.part(i);
+            finding(
+                &META,
+                ctx,
+                p.pins_span,
+                format!(
+                    "both pins of `{}` are on net `{}`",
+                    p.reference,
+                    c.net(net).name
+                ),
+            )
+            .label("shorted")
+            .help(format!(
+                "connect one pin of `{}` to the net it should reach",
+                p.reference
+            ))
+            .parts([p.reference.clone()])
+        })
+        .collect()
 }

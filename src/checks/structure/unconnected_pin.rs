@@ -37,24 +37,28 @@ List the missing pin with the net it connects to.
 
 pub const RULE: Rule = Rule { meta: &META, check };
 
+/// Parts with required pins not listed: (part, missing pins).
+pub fn detect<'a>(ctx: &'a Ctx) -> Vec<(usize, &'a [&'static str])> {
+    ctx.circuit
+        .parts
+        .iter()
+        .enumerate()
+        .filter(|(_, p)| !p.missing_pins.is_empty())
+        .map(|(i, p)| (i, p.missing_pins.as_slice()))
+        .collect()
+}
+
 fn check(ctx: &Ctx) -> Vec<Finding> {
-    let mut out = Vec::new();
-    for p in &ctx.circuit.parts {
-        if p.missing_pins.is_empty() {
-            continue;
-        }
-        let list = p
-            .missing_pins
-            .iter()
-            .map(|n| format!("`{n}`"))
-            .collect::<Vec<_>>()
-            .join(", ");
-        let plural = if p.missing_pins.len() > 1 {
-            "pins"
-        } else {
-            "pin"
-        };
-        out.push(
+    detect(ctx)
+        .into_iter()
+        .map(|(i, missing)| {
+            let p = ctx.circuit.part(i);
+            let list = missing
+                .iter()
+                .map(|n| format!("`{n}`"))
+                .collect::<Vec<_>>()
+                .join(", ");
+            let plural = if missing.len() > 1 { "pins" } else { "pin" };
             finding(
                 &META,
                 ctx,
@@ -64,14 +68,13 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
             .label(format!("{list} missing"))
             .help(format!(
                 "add {} to the pin list",
-                p.missing_pins
+                missing
                     .iter()
                     .map(|n| format!("`{n}: NET`"))
                     .collect::<Vec<_>>()
                     .join(", ")
             ))
-            .parts([p.reference.clone()]),
-        );
-    }
-    out
+            .parts([p.reference.clone()])
+        })
+        .collect()
 }

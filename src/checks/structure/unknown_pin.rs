@@ -39,39 +39,48 @@ Use the kind's pin names.
 
 pub const RULE: Rule = Rule { meta: &META, check };
 
+/// Pins listed that the part's kind does not have: (part, pin, span).
+pub fn detect<'a>(ctx: &'a Ctx) -> Vec<(usize, &'a str, crate::source::Span)> {
+    ctx.circuit
+        .parts
+        .iter()
+        .enumerate()
+        .flat_map(|(i, p)| p.unknown_pins.iter().map(move |(n, s)| (i, n.as_str(), *s)))
+        .collect()
+}
+
 fn check(ctx: &Ctx) -> Vec<Finding> {
     let mut out = Vec::new();
-    for p in &ctx.circuit.parts {
+    for (i, name, span) in detect(ctx) {
+        let p = ctx.circuit.part(i);
         let PinSpec::Fixed(list) = p.kind.pins() else {
             continue;
         };
-        for (name, span) in &p.unknown_pins {
-            let names: Vec<&str> = list.iter().map(|(n, _)| *n).collect();
-            let hint = suggest::closest(name, names.iter().copied());
-            let all = names
-                .iter()
-                .map(|n| format!("`{n}`"))
-                .collect::<Vec<_>>()
-                .join(", ");
-            out.push(
-                finding(
-                    &META,
-                    ctx,
-                    *span,
-                    format!("a {} has no pin `{name}`", p.kind.name()),
-                )
-                .label("unknown pin")
-                .related(
-                    p.ref_span,
-                    format!("`{}` is a {}", p.reference, p.kind.name()),
-                )
-                .help(match hint {
-                    Some(h) => format!("did you mean `{h}`? a {} has pins {all}", p.kind.name()),
-                    None => format!("a {} has pins {all}", p.kind.name()),
-                })
-                .parts([p.reference.clone()]),
-            );
-        }
+        let names: Vec<&str> = list.iter().map(|(n, _)| *n).collect();
+        let hint = suggest::closest(name, names.iter().copied());
+        let all = names
+            .iter()
+            .map(|n| format!("`{n}`"))
+            .collect::<Vec<_>>()
+            .join(", ");
+        out.push(
+            finding(
+                &META,
+                ctx,
+                span,
+                format!("a {} has no pin `{name}`", p.kind.name()),
+            )
+            .label("unknown pin")
+            .related(
+                p.ref_span,
+                format!("`{}` is a {}", p.reference, p.kind.name()),
+            )
+            .help(match hint {
+                Some(h) => format!("did you mean `{h}`? a {} has pins {all}", p.kind.name()),
+                None => format!("a {} has pins {all}", p.kind.name()),
+            })
+            .parts([p.reference.clone()]),
+        );
     }
     out
 }
