@@ -57,10 +57,18 @@ fn t_off(ctx: &Ctx, sw: usize) -> Option<f64> {
     Some(r * (qg / vd) * (vd / vth).ln())
 }
 
-fn check(ctx: &Ctx) -> Vec<Finding> {
-    let c = ctx.circuit;
+/// A complementary pair driving a leg with too little dead time.
+pub struct Short<'a> {
+    pub drive: &'a crate::model::Drive,
+    pub leg: &'a crate::analysis::Leg,
+    pub slow: usize,
+    pub t_off: f64,
+    pub deadtime: f64,
+}
+
+pub fn detect<'a>(ctx: &'a Ctx) -> Vec<Short<'a>> {
     let mut out = Vec::new();
-    for d in &c.drives {
+    for d in &ctx.circuit.drives {
         let DriveKind::Pwm {
             complement: Some((cp, cpin)),
             deadtime,
@@ -89,28 +97,43 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
                 (leg.low, tl)
             };
             let dt = deadtime.unwrap_or(0.0);
-            if dt >= ts {
-                continue;
+            if dt < ts {
+                out.push(Short {
+                    drive: d,
+                    leg,
+                    slow,
+                    t_off: ts,
+                    deadtime: dt,
+                });
             }
-            let f = crate::checks::finding(
-                &META,
-                ctx,
-                d.span,
-                format!(
-                    "dead time {} is shorter than the {} turn-off time of `{}`",
-                    t(dt),
-                    t(ts),
-                    ref_of(ctx, slow)
-                ),
-            )
-            .label("dead time")
-            .parts([c.part(d.part).reference.clone()]);
-            let f = with_part(f, ctx, leg.high, "high side".into());
-            out.push(with_part(f, ctx, leg.low, "low side".into()).help(format!(
-                "set `deadtime` to at least {} (2× the slower turn-off)",
-                t(2.0 * ts)
-            )));
         }
     }
     out
+}
+
+fn check(ctx: &Ctx) -> Vec<Finding> {
+    let c = ctx.circuit;
+    detect(ctx)
+        .into_iter()
+        .map(|s| {
+            let f = crate::checks::finding(
+                &META,
+                ctx,
+                s.drive.span,
+                format!(
+                    "dead time {} is shorter than the {} turn-off time of `{}`",
+                    t(s.deadtime),
+                    t(s.t_off),
+                    ref_of(ctx, s.slow)
+                ),
+            )
+            .label("dead time")
+            .parts([c.part(s.drive.part).reference.clone()]);
+            let f = with_part(f, ctx, s.leg.high, "high side".into());
+            with_part(f, ctx, s.leg.low, "low side".into()).help(format!(
+                "set `deadtime` to at least {} (2× the slower turn-off)",
+                t(2.0 * s.t_off)
+            ))
+        })
+        .collect()
 }

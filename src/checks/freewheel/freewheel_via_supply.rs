@@ -53,9 +53,18 @@ fn has_cap(ctx: &Ctx, net: usize) -> bool {
     })
 }
 
-fn check(ctx: &Ctx) -> Vec<Finding> {
+/// A turn-off whose freewheel path pushes energy into an uncapacitated
+/// rail: (turn-off, path, rail, energy ½·L·I²).
+pub fn detect<'a>(
+    ctx: &'a Ctx,
+) -> Vec<(
+    &'a crate::analysis::TurnOff,
+    &'a crate::analysis::freewheel::Path,
+    usize,
+    f64,
+)> {
     let c = ctx.circuit;
-    let mut out: Vec<Finding> = Vec::new();
+    let mut out = Vec::new();
     let mut seen = std::collections::HashSet::new();
     let mut capped: std::collections::HashMap<usize, bool> = std::collections::HashMap::new();
     for tt in &ctx.analysis.turnoffs {
@@ -70,30 +79,39 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
             continue;
         }
         let l = c.part(tt.load).num("l").unwrap_or(0.0);
-        let e = 0.5 * l * tt.i0 * tt.i0;
-        let mut f = on_part(
-            &META,
-            ctx,
-            tt.load,
-            "returns its energy into the supply",
-            format!(
-                "when `{}` turns off, `{}` returns {} into `{}` {}, and `{}` has no capacitor",
-                ref_of(ctx, tt.switch),
-                ref_of(ctx, tt.load),
-                crate::units::format_si(e, crate::units::Dimension::Energy),
-                c.net(x).name,
-                p.describe(c),
-                c.net(x).name
-            ),
-        );
-        for &q in &p.parts {
-            f = with_part(f, ctx, q, "on the freewheel path".into());
-        }
-        f = f.related(c.net(x).span, "this rail");
-        out.push(f.help(format!(
-            "add a bulk capacitor from `{}` to ground near the switches",
-            c.net(x).name
-        )));
+        out.push((tt, p, x, 0.5 * l * tt.i0 * tt.i0));
     }
     out
+}
+
+fn check(ctx: &Ctx) -> Vec<Finding> {
+    let c = ctx.circuit;
+    detect(ctx)
+        .into_iter()
+        .map(|(tt, p, x, e)| {
+            let mut f = on_part(
+                &META,
+                ctx,
+                tt.load,
+                "returns its energy into the supply",
+                format!(
+                    "when `{}` turns off, `{}` returns {} into `{}` {}, and `{}` has no capacitor",
+                    ref_of(ctx, tt.switch),
+                    ref_of(ctx, tt.load),
+                    crate::units::format_si(e, crate::units::Dimension::Energy),
+                    c.net(x).name,
+                    p.describe(c),
+                    c.net(x).name
+                ),
+            );
+            for &q in &p.parts {
+                f = with_part(f, ctx, q, "on the freewheel path".into());
+            }
+            f = f.related(c.net(x).span, "this rail");
+            f.help(format!(
+                "add a bulk capacitor from `{}` to ground near the switches",
+                c.net(x).name
+            ))
+        })
+        .collect()
 }
