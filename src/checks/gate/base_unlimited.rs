@@ -41,7 +41,9 @@ of about I_C / hfe_min × 2.
 
 pub const RULE: Rule = Rule { meta: &META, check };
 
-fn check(ctx: &Ctx) -> Vec<Finding> {
+/// Bipolar switches whose base is on a pin or driver output directly:
+/// (transistor, driving part, index of the driving pin).
+pub fn detect(ctx: &Ctx) -> Vec<(usize, usize, usize)> {
     let c = ctx.circuit;
     let mut out = Vec::new();
     for (i, p) in c.parts.iter().enumerate() {
@@ -55,7 +57,19 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
             (qp.kind == Kind::Mcu && !crate::analysis::states::is_supply_pin(name))
                 || (qp.kind == Kind::Driver && (name == "out" || name == "outb"))
         });
-        let Some(&(q, pin)) = driver else { continue };
+        if let Some(&(q, pin)) = driver {
+            out.push((i, q, pin));
+        }
+    }
+    out
+}
+
+fn check(ctx: &Ctx) -> Vec<Finding> {
+    let c = ctx.circuit;
+    let mut out = Vec::new();
+    for (i, q, pin) in detect(ctx) {
+        let p = c.part(i);
+        let Some(b) = p.net_of("b") else { continue };
         let qp = c.part(q);
         let pin_name = qp.pins.get(pin).map(|x| x.name.clone()).unwrap_or_default();
         let ic = ctx.analysis.facts.value(i, "i_on");

@@ -45,7 +45,26 @@ available drive, or a gate driver supplied from at least `rds_on_vgs`.
 
 pub const RULE: Rule = Rule { meta: &META, check };
 
-fn check(ctx: &Ctx) -> Vec<Finding> {
+/// A switch driven below what its ratings are specified at.
+pub enum Low {
+    /// MOSFET: V_GS in the on state (or the best attempt when it never
+    /// turns on) below `rds_on_vgs`.
+    Gate {
+        switch: usize,
+        vgs: f64,
+        vneed: f64,
+        never: bool,
+    },
+    /// Bipolar: base current below I_C / hfe_min.
+    Base {
+        switch: usize,
+        ib: f64,
+        ic: f64,
+        hfe: f64,
+    },
+}
+
+pub fn detect(ctx: &Ctx) -> Vec<Low> {
     let c = ctx.circuit;
     let a_ = ctx.analysis;
     let mut out = Vec::new();
@@ -60,11 +79,10 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
         }
         let p = c.part(sw);
         if p.kind.is_mos() {
-            let Some(vneed) = p.num("rds_on_vgs") else {
+            let (Some(vneed), Some(vgs)) = (p.num("rds_on_vgs"), info.v_gs_on.or(info.v_gs_best))
+            else {
                 continue;
             };
-            let vgs = info.v_gs_on.or(info.v_gs_best);
-            let Some(vgs) = vgs else { continue };
             if vgs + 1e-9 >= vneed {
                 continue;
             }
@@ -77,49 +95,73 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
             if !p.kind.is_p_type() && level >= vneed && !super::pull_resistors(ctx, sw).is_empty() {
                 continue;
             }
-            let never = info.v_gs_on.is_none();
-            let rds = p
-                .num("rds_on")
-                .map(|r| format!(" {}", ohm(r)))
-                .unwrap_or_default();
-            let msg = if never {
-                format!(
-                    "`{}` never turns on: its best gate drive is {}, below its {} threshold",
-                    p.reference,
-                    v(vgs),
-                    v(p.num("vgs_th").unwrap_or(vneed))
-                )
-            } else {
-                format!(
-                    "`{}` gets {} of gate drive, below the {} at which its{rds} R_DS(on) is specified",
-                    p.reference,
-                    v(vgs),
-                    v(vneed)
-                )
-            };
-            let mut f = crate::checks::finding(&META, ctx, pin_span(ctx, p, "g"), msg)
-                .label(format!("V_GS {} in the on state", v(vgs)))
-                .parts([p.reference.clone()]);
-            for ((m, pin), _) in &info.controls {
-                f = with_part(f, ctx, *m, format!("`{}.{pin}` drives it", ref_of(ctx, *m)));
-            }
-            out.push(f.help(format!(
-                "use a logic-level switch whose R_DS(on) is specified at ≤ {}, or a gate driver supplied from ≥ {}",
-                v(vgs.max(0.0)),
-                v(vneed)
-            )));
+            out.push(Low::Gate {
+                switch: sw,
+                vgs,
+                vneed,
+                never: info.v_gs_on.is_none(),
+            });
         } else if matches!(p.kind, Kind::Npn | Kind::Pnp) {
-            let (Some(hfe), Some(ic)) = (p.num("hfe_min"), a_.facts.value(sw, "i_on")) else {
+            let (Some(hfe), Some(ic), Some(ib)) = (
+                p.num("hfe_min"),
+                a_.facts.value(sw, "i_on"),
+                a_.facts.value(sw, "i_b"),
+            ) else {
                 continue;
             };
-            let Some(ib) = a_.facts.value(sw, "i_b") else {
-                continue;
-            };
-            let need = ic / hfe;
-            if ib + 1e-12 >= need {
-                continue;
+            if ib + 1e-12 < ic / hfe {
+                out.push(Low::Base {
+                    switch: sw,
+                    ib,
+                    ic,
+                    hfe,
+                });
             }
-            out.push(
+        }
+    }
+    out
+}
+
+fn check(ctx: &Ctx) -> Vec<Finding> {
+    let c = ctx.circuit;
+    detect(ctx)
+        .into_iter()
+        .map(|low| match low {
+            Low::Gate { switch, vgs, vneed, never } => {
+                let p = c.part(switch);
+                let rds = p.num("rds_on").map(|r| format!(" {}", ohm(r))).unwrap_or_default();
+                let msg = if never {
+                    format!(
+                        "`{}` never turns on: its best gate drive is {}, below its {} threshold",
+                        p.reference,
+                        v(vgs),
+                        v(p.num("vgs_th").unwrap_or(vneed))
+                    )
+                } else {
+                    format!(
+                        "`{}` gets {} of gate drive, below the {} at which its{rds} R_DS(on) is specified",
+                        p.reference,
+                        v(vgs),
+                        v(vneed)
+                    )
+                };
+                let mut f = crate::checks::finding(&META, ctx, pin_span(ctx, p, "g"), msg)
+                    .label(format!("V_GS {} in the on state", v(vgs)))
+                    .parts([p.reference.clone()]);
+                if let Some(info) = ctx.analysis.switches.get(&switch) {
+                    for ((m, pin), _) in &info.controls {
+                        f = with_part(f, ctx, *m, format!("`{}.{pin}` drives it", ref_of(ctx, *m)));
+                    }
+                }
+                f.help(format!(
+                    "use a logic-level switch whose R_DS(on) is specified at ≤ {}, or a gate driver supplied from ≥ {}",
+                    v(vgs.max(0.0)),
+                    v(vneed)
+                ))
+            }
+            Low::Base { switch, ib, ic, hfe } => {
+                let p = c.part(switch);
+                let need = ic / hfe;
                 crate::checks::finding(
                     &META,
                     ctx,
@@ -135,12 +177,8 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
                 )
                 .label("base current too low to saturate")
                 .parts([p.reference.clone()])
-                .help(format!(
-                    "lower the base resistor so that the base gets at least {} (2× for margin)",
-                    a(need)
-                )),
-            );
-        }
-    }
-    out
+                .help(format!("lower the base resistor so that the base gets at least {} (2× for margin)", a(need)))
+            }
+        })
+        .collect()
 }
