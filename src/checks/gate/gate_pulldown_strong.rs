@@ -44,7 +44,26 @@ resistor.
 
 pub const RULE: Rule = Rule { meta: &META, check };
 
-fn check(ctx: &Ctx) -> Vec<Finding> {
+/// What is too strong about a gate network.
+pub enum Strong {
+    /// The controller pin sources more than its rating.
+    PinOverload {
+        switch: usize,
+        mcu: usize,
+        pin: String,
+        current: f64,
+        rating: f64,
+    },
+    /// The network divides a sufficient pin level below `rds_on_vgs`.
+    Divider {
+        switch: usize,
+        level: f64,
+        vgs: f64,
+        vneed: f64,
+    },
+}
+
+pub fn detect(ctx: &Ctx) -> Vec<Strong> {
     let c = ctx.circuit;
     let mut out = Vec::new();
     let mut ids: Vec<_> = ctx.analysis.switches.keys().copied().collect();
@@ -54,14 +73,6 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
             continue;
         };
         let p = c.part(sw);
-        let pulls = super::pull_resistors(ctx, sw);
-        let anchor = |f: Finding| -> Finding {
-            let mut f = with_part(f, ctx, sw, "the switch it drives".into());
-            for &r in &pulls {
-                f = with_part(f, ctx, r, "pull resistor".into());
-            }
-            f
-        };
         // a base straight on the pin is `base-unlimited`'s finding
         let base_on_pin = p.kind.is_bipolar()
             && info
@@ -71,28 +82,17 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
         if base_on_pin {
             continue;
         }
-        if let Some(((mcu, pin), i)) = &info.pin_current
-            && let Some(imax) = c.part(*mcu).num("io_i_max")
-            && *i > imax
-        {
-            let f = on_part(
-                &META,
-                ctx,
-                *mcu,
-                "overloaded pin",
-                format!(
-                    "`{}.{pin}` sources {} into the gate network of `{}`, above its {} rating",
-                    ref_of(ctx, *mcu),
-                    a(*i),
-                    p.reference,
-                    a(imax)
-                ),
-            );
-            out.push(anchor(f).help(format!(
-                "raise the pull-down to 10 kΩ–100 kΩ so that the pin sources well under {}",
-                a(imax)
-            )));
-            continue;
+        if let Some(((mcu, pin), i)) = &info.pin_current {
+            if let Some(rating) = c.part(*mcu).num("io_i_max").filter(|r| i > r) {
+                out.push(Strong::PinOverload {
+                    switch: sw,
+                    mcu: *mcu,
+                    pin: pin.clone(),
+                    current: *i,
+                    rating,
+                });
+                continue;
+            }
         }
         if !p.kind.is_mos() || info.controls.is_empty() {
             continue;
@@ -106,31 +106,83 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
             .map(|((m, _), _)| crate::analysis::states::io_v(c, *m))
             .fold(0.0f64, f64::max);
         // only a direct drive from the pin, where the pin level is enough
-        let direct = c.part(info.controls[0].0.0).pins.iter().any(|x| {
-            ctx.graph.island_of.get(x.net).copied().flatten()
-                == p.net_of("g")
-                    .and_then(|g| ctx.graph.island_of.get(g).copied().flatten())
-        });
-        if direct && !p.kind.is_p_type() && level >= vneed && vgs < vneed && !pulls.is_empty() {
-            let f = on_part(
-                &META,
-                ctx,
-                pulls[0],
-                "divides the gate drive",
-                format!(
-                    "the gate network leaves `{2}` with {1} of V_GS from a {0} pin, below the {3} at which its R_DS(on) is specified",
-                    v(level),
-                    v(vgs),
-                    p.reference,
-                    v(vneed)
-                ),
-            );
-            out.push(
-                anchor(f).help(
-                    "use a pull-down of 10 kΩ–100 kΩ, at least 100× the series gate resistor",
-                ),
-            );
+        let gate_island = p
+            .net_of("g")
+            .and_then(|g| ctx.graph.island_of.get(g).copied().flatten());
+        let direct = c
+            .part(info.controls[0].0.0)
+            .pins
+            .iter()
+            .any(|x| ctx.graph.island_of.get(x.net).copied().flatten() == gate_island);
+        if direct
+            && !p.kind.is_p_type()
+            && level >= vneed
+            && vgs < vneed
+            && !super::pull_resistors(ctx, sw).is_empty()
+        {
+            out.push(Strong::Divider {
+                switch: sw,
+                level,
+                vgs,
+                vneed,
+            });
         }
     }
     out
+}
+
+fn check(ctx: &Ctx) -> Vec<Finding> {
+    let c = ctx.circuit;
+    detect(ctx)
+        .into_iter()
+        .map(|s| {
+            let sw = match &s {
+                Strong::PinOverload { switch, .. } | Strong::Divider { switch, .. } => *switch,
+            };
+            let p = c.part(sw);
+            let pulls = super::pull_resistors(ctx, sw);
+            let anchor = |f: Finding| -> Finding {
+                let mut f = with_part(f, ctx, sw, "the switch it drives".into());
+                for &r in &pulls {
+                    f = with_part(f, ctx, r, "pull resistor".into());
+                }
+                f
+            };
+            match s {
+                Strong::PinOverload { mcu, pin, current, rating, .. } => {
+                    let f = on_part(
+                        &META,
+                        ctx,
+                        mcu,
+                        "overloaded pin",
+                        format!(
+                            "`{}.{pin}` sources {} into the gate network of `{}`, above its {} rating",
+                            ref_of(ctx, mcu),
+                            a(current),
+                            p.reference,
+                            a(rating)
+                        ),
+                    );
+                    anchor(f).help(format!("raise the pull-down to 10 kΩ–100 kΩ so that the pin sources well under {}", a(rating)))
+                }
+                Strong::Divider { level, vgs, vneed, .. } => {
+                    let at = pulls.first().copied().unwrap_or(sw);
+                    let f = on_part(
+                        &META,
+                        ctx,
+                        at,
+                        "divides the gate drive",
+                        format!(
+                            "the gate network leaves `{}` with {} of V_GS from a {} pin, below the {} at which its R_DS(on) is specified",
+                            p.reference,
+                            v(vgs),
+                            v(level),
+                            v(vneed)
+                        ),
+                    );
+                    anchor(f).help("use a pull-down of 10 kΩ–100 kΩ, at least 100× the series gate resistor")
+                }
+            }
+        })
+        .collect()
 }
