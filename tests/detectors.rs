@@ -28,7 +28,7 @@ fn with<T>(b: &Built, f: impl FnOnce(&Ctx) -> T) -> T {
 #[test]
 fn overcurrent_detector_gives_the_stall_current() {
     let b = built("tests/fixtures/rules/switch-overcurrent/bad.drive");
-    let hits = with(&b, |c| checks::switch::switch_overcurrent::detect(c));
+    let hits = with(&b, checks::switch::switch_overcurrent::detect);
     assert_eq!(hits.len(), 1);
     // 14.4 V / (3 Ω · 0.9 + 0.12 Ω) = 5.106 A against 80 % of 3 A
     assert!(
@@ -60,14 +60,11 @@ fn clamp_detector_gives_rail_plus_clamp() {
 #[test]
 fn floating_and_stuck_on_detectors() {
     let b = built("tests/fixtures/rules/gate-floating/bad.drive");
-    assert_eq!(
-        with(&b, |c| checks::gate::gate_floating::detect(c)).len(),
-        1
-    );
+    assert_eq!(with(&b, checks::gate::gate_floating::detect).len(), 1);
     let b = built("tests/fixtures/rules/gate-floating/pulldown-before-resistor.drive");
-    assert!(with(&b, |c| checks::gate::gate_floating::detect(c)).is_empty());
+    assert!(with(&b, checks::gate::gate_floating::detect).is_empty());
     let b = built("tests/fixtures/rules/gate-stuck-on/bad.drive");
-    let s = with(&b, |c| checks::gate::gate_stuck_on::detect(c));
+    let s = with(&b, checks::gate::gate_stuck_on::detect);
     assert_eq!(s.len(), 1);
     assert_eq!(s[0].source_v, Some(14.4));
 }
@@ -75,7 +72,7 @@ fn floating_and_stuck_on_detectors() {
 #[test]
 fn diode_detectors() {
     let b = built("tests/fixtures/rules/freewheel-diode-slow/bad.drive");
-    let s = with(&b, |c| checks::freewheel::freewheel_diode_slow::detect(c));
+    let s = with(&b, checks::freewheel::freewheel_diode_slow::detect);
     assert_eq!(s.len(), 1);
     // 2 µs against 1 % of the 50 µs period
     assert!((s[0].limit - 0.5e-6).abs() < 1e-12);

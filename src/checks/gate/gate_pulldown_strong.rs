@@ -82,17 +82,17 @@ pub fn detect(ctx: &Ctx) -> Vec<Strong> {
         if base_on_pin {
             continue;
         }
-        if let Some(((mcu, pin), i)) = &info.pin_current {
-            if let Some(rating) = c.part(*mcu).num("io_i_max").filter(|r| i > r) {
-                out.push(Strong::PinOverload {
-                    switch: sw,
-                    mcu: *mcu,
-                    pin: pin.clone(),
-                    current: *i,
-                    rating,
-                });
-                continue;
-            }
+        if let Some(((mcu, pin), i)) = &info.pin_current
+            && let Some(rating) = c.part(*mcu).num("io_i_max").filter(|r| i > r)
+        {
+            out.push(Strong::PinOverload {
+                switch: sw,
+                mcu: *mcu,
+                pin: pin.clone(),
+                current: *i,
+                rating,
+            });
+            continue;
         }
         if !p.kind.is_mos() || info.controls.is_empty() {
             continue;
