@@ -33,12 +33,7 @@ pub fn pct(x: f64) -> String {
 
 /// The span of a part's statement, limited to its first line.
 pub fn line_span(ctx: &Ctx, p: &Part) -> Span {
-    let f = &ctx.circuit.file;
-    let line = f.line_index(p.span.start);
-    Span::new(
-        p.span.start,
-        p.span.end.min(f.line_end(line)).max(p.span.start),
-    )
+    line_span_of(ctx.circuit, p)
 }
 
 /// The span of one pin (`g: FAN_G`), or the part's line.
