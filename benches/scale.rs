@@ -6,6 +6,10 @@
 //! (`-- 16000 160000` to choose the sizes; `--team 1000` adds 1,000 team
 //! rules; `--render 10000` times rendering of 10,000 findings).
 
+// The same allocator as the binary, so that stage times are what users get.
+#[global_allocator]
+static GLOBAL: mimalloc::MiMalloc = mimalloc::MiMalloc;
+
 #[path = "gen.rs"]
 #[allow(dead_code)] // the example uses the rest of the generator
 mod generator;
