@@ -182,3 +182,28 @@ fn rand_suffix() -> u128 {
         .map(|d| d.as_nanos())
         .unwrap_or(0)
 }
+
+#[test]
+fn every_fact_in_json_is_a_value_with_a_unit() {
+    for f in [
+        "samples/window_actuator.drive",
+        "samples/alarm_relay_faulty.drive",
+    ] {
+        let (code, out, _) = stdout(&["facts", f, "--format", "json"]);
+        assert_eq!(code, 0);
+        let v: serde_json::Value = serde_json::from_str(&out).unwrap_or_default();
+        let parts = v["parts"].as_object().cloned().unwrap_or_default();
+        assert!(!parts.is_empty());
+        for (r, facts) in parts {
+            for (name, fact) in facts.as_object().cloned().unwrap_or_default() {
+                assert!(
+                    fact["value"].as_f64().is_some_and(f64::is_finite),
+                    "{f} {r}.{name}: {fact}"
+                );
+                assert!(fact["unit"].is_string(), "{f} {r}.{name}: {fact}");
+            }
+        }
+        // facts that cannot be computed are absent, with a reason
+        assert!(v["missing"].is_object());
+    }
+}

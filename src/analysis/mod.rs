@@ -958,6 +958,7 @@ fn thermal(c: &Circuit, s: &Settings, a: &mut Analysis) {
 /// `facts --format json`.
 pub fn facts_json(b: &crate::Built) -> serde_json::Value {
     let mut parts = serde_json::Map::new();
+    let mut missing = serde_json::Map::new();
     let c = &b.circuit;
     for (i, p) in c.parts.iter().enumerate() {
         let mut m = serde_json::Map::new();
@@ -988,7 +989,7 @@ pub fn facts_json(b: &crate::Built) -> serde_json::Value {
                     .iter()
                     .map(|x| (x.name.clone(), serde_json::Value::String(x.reason.clone())))
                     .collect();
-                m.insert("_missing".into(), serde_json::Value::Object(miss));
+                missing.insert(p.reference.clone(), serde_json::Value::Object(miss));
             }
         }
         parts.insert(p.reference.clone(), serde_json::Value::Object(m));
@@ -998,6 +999,8 @@ pub fn facts_json(b: &crate::Built) -> serde_json::Value {
         "ambient": {"value": b.settings.ambient, "unit": "degC"},
         "derating": crate::report::json::derating(&b.settings.derating),
         "parts": parts,
+        // facts that could not be computed, with the reason, per part
+        "missing": missing,
     })
 }
 
