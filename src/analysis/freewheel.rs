@@ -278,7 +278,7 @@ pub fn turn_off(
     match best {
         Some((v_loop, hop)) => {
             let (parts, v_leave, v_enter) = match hop {
-                Some((x, y, hv)) => {
+                Some((x, y, _)) => {
                     let mut p1 = walk(&d1, x);
                     p1.reverse();
                     let p2 = walk(&d2, y);
@@ -286,7 +286,6 @@ pub fn turn_off(
                     let vy = c.net(y).fixed_max().unwrap_or(0.0);
                     let v_leave = vx + d1.get(&x).map(|d| d.0).unwrap_or(0.0);
                     let v_enter = vy - d2.get(&y).map(|d| d.0).unwrap_or(0.0);
-                    let _ = hv;
                     (
                         p1.into_iter().chain(p2).collect::<Vec<_>>(),
                         v_leave,

@@ -273,7 +273,7 @@ fn analyse_switches(
         for (k, pin) in grp.pins.iter().enumerate() {
             let mut controls = false;
             let mut inverting = false;
-            for (i, r) in results.iter().enumerate() {
+            for r in results {
                 if r.is_reset() || r.assignment.get(k) != Some(&PinState::High) {
                     continue;
                 }
@@ -297,7 +297,6 @@ fn analyse_switches(
                         break;
                     }
                 }
-                let _ = i;
             }
             if controls {
                 info.controls.push((pin.clone(), inverting));

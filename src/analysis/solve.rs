@@ -102,7 +102,6 @@ impl Network {
         let r = r.max(1e-6);
         let g = 1.0 / r;
         self.conductance(a, b, g);
-        let n = self.n();
         let i = v * g;
         if let Slot::Node(ia) = self.slot(a) {
             self.rhs[ia] += i;
@@ -110,7 +109,6 @@ impl Network {
         if let Slot::Node(ib) = self.slot(b) {
             self.rhs[ib] -= i;
         }
-        let _ = n;
     }
 
     /// A source to the 0 V reference (a controller or driver output).

@@ -542,8 +542,6 @@ fn stamp(
             }
         }
     }
-    // reverse breakdown is stamped separately (needs the sign)
-    let _ = grp;
 }
 
 fn currents(

@@ -350,9 +350,8 @@ impl Elab<'_> {
     fn rail(
         &mut self,
         name: &ast::Spanned<String>,
-        nominal: &ast::Spanned<Value>,
+        nominal: Option<&ast::Spanned<Value>>,
         opts: &[ast::RailOpt],
-        ground: bool,
     ) {
         let id = self.net(&name.node, name.span);
         if self.c.nets[id].is_fixed() {
@@ -366,10 +365,11 @@ impl Elab<'_> {
             return;
         }
         self.c.nets[id].span = name.span;
-        if ground {
+        // no nominal voltage: a ground
+        let Some(nominal) = nominal else {
             self.c.nets[id].kind = NetKind::Ground;
             return;
-        }
+        };
         let Some(nom) = self.quantity(nominal, Dimension::Voltage, "rail voltage") else {
             return;
         };
@@ -882,8 +882,8 @@ pub fn elaborate(
                 name,
                 nominal,
                 opts,
-            } => e.rail(name, nominal, opts, false),
-            StatementKind::Ground(name) => e.rail(name, name_as_value(name), &[], true),
+            } => e.rail(name, Some(nominal), opts),
+            StatementKind::Ground(name) => e.rail(name, None, &[]),
             _ => {}
         }
     }
@@ -937,11 +937,4 @@ pub fn elaborate(
         .filter_map(|(i, n)| n.fixed_max().map(|v| (i, v)))
         .collect();
     (c, e.errors)
-}
-
-fn name_as_value(name: &ast::Spanned<String>) -> &ast::Spanned<Value> {
-    // A ground has no value; the rail() path does not read it for grounds.
-    static ZERO: std::sync::OnceLock<ast::Spanned<Value>> = std::sync::OnceLock::new();
-    let _ = name;
-    ZERO.get_or_init(|| ast::Spanned::new(Value::Atom("0V".into()), Span::default()))
 }

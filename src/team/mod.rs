@@ -437,7 +437,6 @@ pub fn glob(pat: &str, s: &str) -> bool {
 }
 
 struct PartEnv<'a> {
-    c: &'a Circuit,
     a: &'a Analysis,
     s: &'a Settings,
     pid: usize,
@@ -482,7 +481,6 @@ impl Env for PartEnv<'_> {
         } else {
             self.a.net_vmin.get(net)
         };
-        let _ = self.c;
         v.copied().flatten().ok_or_else(what)
     }
     fn has(&self, key: &str) -> bool {
@@ -519,7 +517,7 @@ pub fn run(rules: &[Arc<TeamRule>], c: &Circuit, a: &Analysis, s: &Settings) -> 
             {
                 continue;
             }
-            let env = PartEnv { c, a, s, pid, p };
+            let env = PartEnv { a, s, pid, p };
             let line = crate::checks::common::line_span_of(c, p);
             let cannot = |why: String| -> Finding {
                 Finding::new(

@@ -87,11 +87,7 @@ pub fn detect(ctx: &Ctx) -> Vec<Low> {
                 continue;
             }
             // a divider that the pin could overcome is the pull-down's fault
-            let level = info
-                .controls
-                .iter()
-                .map(|((m, _), _)| crate::analysis::states::io_v(c, *m))
-                .fold(0.0f64, f64::max);
+            let level = super::pin_level(ctx, info);
             if !p.kind.is_p_type() && level >= vneed && !super::pull_resistors(ctx, sw).is_empty() {
                 continue;
             }

@@ -100,11 +100,7 @@ pub fn detect(ctx: &Ctx) -> Vec<Strong> {
         let (Some(vneed), Some(vgs)) = (p.num("rds_on_vgs"), info.v_gs_on) else {
             continue;
         };
-        let level = info
-            .controls
-            .iter()
-            .map(|((m, _), _)| crate::analysis::states::io_v(c, *m))
-            .fold(0.0f64, f64::max);
+        let level = super::pin_level(ctx, info);
         // only a direct drive from the pin, where the pin level is enough
         let gate_island = p
             .net_of("g")

@@ -22,11 +22,18 @@ pub fn rules() -> Vec<Rule> {
     ]
 }
 
+/// The highest output level of the controller pins that control a switch.
+pub fn pin_level(ctx: &Ctx, info: &crate::analysis::SwitchInfo) -> f64 {
+    info.controls
+        .iter()
+        .map(|((m, _), _)| crate::analysis::states::io_v(ctx.circuit, *m))
+        .fold(0.0f64, f64::max)
+}
+
 /// Resistors in a switch's gate network that go to its reference net or
 /// to a fixed net (pull-downs and pull-ups).
 pub fn pull_resistors(ctx: &Ctx, sw: PartId) -> Vec<PartId> {
     let c = ctx.circuit;
-    let a = ctx.analysis;
     let p = c.part(sw);
     let Some((_, ctl, r)) = p.kind.switch_pins() else {
         return Vec::new();
@@ -38,7 +45,6 @@ pub fn pull_resistors(ctx: &Ctx, sw: PartId) -> Vec<PartId> {
         return Vec::new();
     };
     let island = &ctx.graph.islands[gi];
-    let _ = a;
     let mut out: Vec<PartId> = island
         .iter()
         .flat_map(|&n| ctx.graph.parts_on(n))
