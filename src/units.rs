@@ -25,6 +25,22 @@ pub enum Dimension {
 }
 
 impl Dimension {
+    pub const ALL: [Dimension; 13] = [
+        Dimension::Number,
+        Dimension::Voltage,
+        Dimension::Current,
+        Dimension::Resistance,
+        Dimension::Capacitance,
+        Dimension::Inductance,
+        Dimension::Frequency,
+        Dimension::Power,
+        Dimension::Time,
+        Dimension::Charge,
+        Dimension::Energy,
+        Dimension::Temperature,
+        Dimension::ThermalResistance,
+    ];
+
     /// "a resistance", for "expected a resistance, found an inductance".
     pub fn article_name(self) -> &'static str {
         match self {

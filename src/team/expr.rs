@@ -43,24 +43,7 @@ impl Dim {
         })
     }
     pub fn named(self) -> Option<Dimension> {
-        use Dimension::*;
-        [
-            Number,
-            Voltage,
-            Current,
-            Resistance,
-            Capacitance,
-            Inductance,
-            Frequency,
-            Power,
-            Time,
-            Charge,
-            Energy,
-            Temperature,
-            ThermalResistance,
-        ]
-        .into_iter()
-        .find(|d| Dim::of(*d) == self)
+        Dimension::ALL.into_iter().find(|d| Dim::of(*d) == self)
     }
     fn mul(self, o: Dim) -> Dim {
         let mut r = [0i8; 4];
