@@ -25,6 +25,21 @@ fn ms(t: Instant) -> f64 {
     t.elapsed().as_secs_f64() * 1e3
 }
 
+/// Resident memory of this process now, in MiB (Linux; 0 elsewhere).
+fn rss_mib() -> f64 {
+    std::fs::read_to_string("/proc/self/status")
+        .ok()
+        .and_then(|s| {
+            s.lines().find(|l| l.starts_with("VmRSS:")).and_then(|l| {
+                l.split_whitespace()
+                    .nth(1)
+                    .and_then(|v| v.parse::<f64>().ok())
+            })
+        })
+        .map(|kib| kib / 1024.0)
+        .unwrap_or(0.0)
+}
+
 fn peak_rss_child_kib() -> i64 {
     // SAFETY: getrusage only writes into the struct we hand it.
     unsafe {
@@ -46,6 +61,7 @@ fn stages(path: &Path, team: &[Arc<armature::team::TeamRule>]) {
     let t = Instant::now();
     let (ast, errs) = syntax::parse(&file);
     let t_parse = ms(t);
+    let m_parse = rss_mib();
     let cache = LibraryCache::default();
     let lib_path = path.with_file_name("gen-parts.yaml");
     let lib = cache.load(&lib_path, "gen-parts.yaml").ok();
@@ -53,6 +69,7 @@ fn stages(path: &Path, team: &[Arc<armature::team::TeamRule>]) {
     let libs: Vec<_> = lib.into_iter().collect();
     let (circuit, e2) = model::elaborate(&file, &ast, &libs);
     let t_elab = ms(t);
+    let m_elab = rss_mib();
     let t = Instant::now();
     let g = graph::CircuitGraph::build(&circuit);
     let t_graph = ms(t);
@@ -60,6 +77,7 @@ fn stages(path: &Path, team: &[Arc<armature::team::TeamRule>]) {
     let t = Instant::now();
     let a = analysis::analyze(&circuit, &g, &settings);
     let t_an = ms(t);
+    let m_an = rss_mib();
     let ctx = checks::Ctx {
         circuit: &circuit,
         graph: &g,
@@ -78,6 +96,10 @@ fn stages(path: &Path, team: &[Arc<armature::team::TeamRule>]) {
         }
     }
     let t_checks = ms(t);
+    println!(
+        "  resident memory after parse {m_parse:.0} MiB, elaborate {m_elab:.0} MiB, analysis {m_an:.0} MiB, checks {:.0} MiB",
+        rss_mib()
+    );
     println!("  slowest rule: {} {:.0} ms", slowest.1, slowest.0);
     let t = Instant::now();
     findings.extend(armature::team::run(team, &circuit, &a, &settings));

@@ -3,12 +3,17 @@
 use armature::finding::Class;
 use armature::source::SourceFile;
 use armature::{Options, check_text, syntax};
+use std::sync::Arc;
 
 const LIB: &str = "tests/fixtures/parts.yaml";
 
-fn parse_ok(text: &str) -> syntax::ast::Netlist {
-    let f = SourceFile::from_str("t.drive", text);
-    let (n, e) = syntax::parse(&f);
+fn file(text: &str) -> Arc<SourceFile> {
+    SourceFile::from_str("t.drive", text)
+}
+
+/// The AST of a file that must parse cleanly (it borrows the file).
+fn parse_ok(f: &Arc<SourceFile>) -> syntax::ast::Netlist<'_> {
+    let (n, e) = syntax::parse(f);
     assert!(
         e.is_empty(),
         "{:?}",
@@ -32,7 +37,7 @@ fn errors(text: &str) -> Vec<(String, usize, usize)> {
 
 #[test]
 fn every_statement_form() {
-    let n = parse_ok(
+    let f = file(
         r#"design "greenhouse vent fan" rev "C"
 library "parts/demo.yaml"
 ambient 45degC
@@ -52,14 +57,16 @@ drive U1.PA4 pwm 20kHz complement U1.PA5 deadtime 500ns
 drive U1.PA6 static
 "#,
     );
+    let n = parse_ok(&f);
     assert_eq!(n.statements.len(), 17);
 }
 
 #[test]
 fn comments_continuations_strings_and_blank_lines() {
-    let n = parse_ok(
+    let f = file(
         "# a comment\n\n   design \"with \\\"quotes\\\" and \\\\\"   # trailing\nmotor M1 (+: A, \\\n   -: B) \\\n  r=1ohm\n\t\n",
     );
+    let n = parse_ok(&f);
     assert_eq!(n.statements.len(), 2);
     match &n.statements[0].kind {
         syntax::ast::StatementKind::Design { name, .. } => {
@@ -71,7 +78,9 @@ fn comments_continuations_strings_and_blank_lines() {
 
 #[test]
 fn identifiers_with_every_allowed_character() {
-    parse_ok("resistor R_1-a+b/c (NET_A-1, net+b/2) 4k7\nnmos Q1 (d: A, g: B, s: C) part=2X7000\n");
+    parse_ok(&file(
+        "resistor R_1-a+b/c (NET_A-1, net+b/2) 4k7\nnmos Q1 (d: A, g: B, s: C) part=2X7000\n",
+    ));
 }
 
 #[test]
@@ -138,15 +147,17 @@ fn unknown_kind_has_a_suggestion() {
 
 #[test]
 fn suppression_comments_are_parsed() {
-    let n = parse_ok(
+    let f = file(
         "# armature: allow switch-overheat -- duty never above 20 %\nnmos Q7 (d: A, g: B, s: C)  # armature: allow gate-floating, team/x -- bench tested\n",
     );
+    let n = parse_ok(&f);
     assert_eq!(n.suppressions.len(), 2);
     assert!(n.suppressions[0].own_line);
     assert!(!n.suppressions[1].own_line);
     assert_eq!(n.suppressions[1].rules.len(), 2);
     assert_eq!(n.suppressions[1].reason.as_deref(), Some("bench tested"));
-    let n = parse_ok("nmos Q7 (d: A, g: B, s: C)  # armature: allow gate-floating\n");
+    let f = file("nmos Q7 (d: A, g: B, s: C)  # armature: allow gate-floating\n");
+    let n = parse_ok(&f);
     assert_eq!(n.suppressions[0].reason, None);
 }
 

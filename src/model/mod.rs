@@ -271,7 +271,7 @@ pub fn library_lines(ast: &ast::Netlist) -> Vec<(String, Span)> {
     ast.statements
         .iter()
         .filter_map(|s| match &s.kind {
-            StatementKind::Library(p) => Some((p.node.clone(), p.span)),
+            StatementKind::Library(p) => Some((p.node.to_string(), p.span)),
             _ => None,
         })
         .collect()
@@ -349,11 +349,11 @@ impl Elab<'_> {
 
     fn rail(
         &mut self,
-        name: &ast::Spanned<String>,
-        nominal: Option<&ast::Spanned<Value>>,
+        name: &ast::Text<'_>,
+        nominal: Option<&ast::Spanned<Value<'_>>>,
         opts: &[ast::RailOpt],
     ) {
-        let id = self.net(&name.node, name.span);
+        let id = self.net(name.node, name.span);
         if self.c.nets[id].is_fixed() {
             self.err(
                 "invalid-value",
@@ -417,7 +417,7 @@ impl Elab<'_> {
     }
 
     fn part(&mut self, st: &ast::PartStmt, span: Span, line: usize) {
-        let Some(kind) = Kind::from_name(&st.kind.node) else {
+        let Some(kind) = Kind::from_name(st.kind.node) else {
             let alias = match st.kind.node.to_ascii_lowercase().as_str() {
                 "mosfet" | "fet" | "nfet" | "nch" => Some("nmos"),
                 "pfet" | "pch" => Some("pmos"),
@@ -431,7 +431,7 @@ impl Elab<'_> {
             };
             let hint = match alias {
                 Some(a) => format!("did you mean `{a}`?"),
-                None => suggest::did_you_mean(&st.kind.node, Kind::ALL.iter().map(|k| k.name())),
+                None => suggest::did_you_mean(st.kind.node, Kind::ALL.iter().map(|k| k.name())),
             };
             self.err(
                 "unknown-kind",
@@ -455,7 +455,7 @@ impl Elab<'_> {
         };
         let id = self.c.parts.len();
         let mut part = Part {
-            reference: st.reference.node.clone(),
+            reference: st.reference.node.to_string(),
             kind,
             pins: Vec::new(),
             part_name: None,
@@ -474,7 +474,7 @@ impl Elab<'_> {
         let mut bare_index = 0;
         for entry in &st.pins {
             let pin_name = match &entry.pin {
-                Some(p) => p.node.clone(),
+                Some(p) => p.node.to_string(),
                 None => match positional.and_then(|p| p.get(bare_index)) {
                     Some(n) => {
                         bare_index += 1;
@@ -518,7 +518,7 @@ impl Elab<'_> {
                 );
                 continue;
             }
-            let net = self.net(&entry.net.node, entry.net.span);
+            let net = self.net(entry.net.node, entry.net.span);
             self.c.nets[net].conns.push((id, part.pins.len()));
             part.pins.push(Pin {
                 name: pin_name,
@@ -562,7 +562,8 @@ impl Elab<'_> {
         for p in &st.params {
             if p.key.node == "part" {
                 let name = match &p.value.node {
-                    Value::Atom(s) | Value::Str(s) => s.clone(),
+                    Value::Atom(s) => s.to_string(),
+                    Value::Str(s) => s.to_string(),
                     Value::Range(..) => {
                         self.err(
                             INVALID_VALUE,
@@ -606,9 +607,9 @@ impl Elab<'_> {
                 part.part_name = Some(name);
                 continue;
             }
-            let Some(def) = kind.key(&p.key.node) else {
+            let Some(def) = kind.key(p.key.node) else {
                 let hint = suggest::did_you_mean(
-                    &p.key.node,
+                    p.key.node,
                     kind.keys()
                         .iter()
                         .map(|k| k.name)
@@ -650,8 +651,8 @@ impl Elab<'_> {
     fn param_value(&mut self, kind: Kind, key: &str, v: &ast::Spanned<Value>) -> Option<Param> {
         let def = kind.key(key)?;
         let text = match &v.node {
-            Value::Atom(s) => s.clone(),
-            Value::Str(s) if def.ty == KeyType::Word => s.clone(),
+            Value::Atom(s) => s.to_string(),
+            Value::Str(s) if def.ty == KeyType::Word => s.to_string(),
             other => {
                 self.err(
                     INVALID_VALUE,
@@ -724,8 +725,8 @@ impl Elab<'_> {
                 if let Some(d) = duty {
                     match &d.node {
                         Value::Range(lo, hi) => {
-                            let lo_v = ast::Spanned::new(Value::Atom(lo.node.clone()), lo.span);
-                            let hi_v = ast::Spanned::new(Value::Atom(hi.node.clone()), hi.span);
+                            let lo_v = ast::Spanned::new(Value::Atom(lo.node), lo.span);
+                            let hi_v = ast::Spanned::new(Value::Atom(hi.node), hi.span);
                             dmin = self.quantity(&lo_v, Dimension::Number, "duty")?;
                             dmax = self.quantity(&hi_v, Dimension::Number, "duty")?;
                         }
@@ -747,7 +748,7 @@ impl Elab<'_> {
                     }
                 }
                 let comp = match complement {
-                    Some(c) => Some((self.resolve_pin(c)?, c.pin.node.clone())),
+                    Some(c) => Some((self.resolve_pin(c)?, c.pin.node.to_string())),
                     None => None,
                 };
                 let dt = match deadtime {
@@ -765,7 +766,7 @@ impl Elab<'_> {
         };
         self.c.drives.push(Drive {
             part,
-            pin: pin.pin.node.clone(),
+            pin: pin.pin.node.to_string(),
             kind,
             span,
             line,
@@ -774,11 +775,9 @@ impl Elab<'_> {
     }
 
     fn resolve_pin(&mut self, pin: &ast::PinRef) -> Option<PartId> {
-        let Some(id) = self.c.part_by_ref.get(&pin.part.node).copied() else {
-            let hint = suggest::did_you_mean(
-                &pin.part.node,
-                self.c.part_by_ref.keys().map(|s| s.as_str()),
-            );
+        let Some(id) = self.c.part_by_ref.get(pin.part.node).copied() else {
+            let hint =
+                suggest::did_you_mean(pin.part.node, self.c.part_by_ref.keys().map(|s| s.as_str()));
             self.err(
                 "unknown-ref",
                 pin.part.span,
@@ -807,8 +806,8 @@ impl Elab<'_> {
             );
             return None;
         }
-        if p.pin(&pin.pin.node).is_none() {
-            let hint = suggest::did_you_mean(&pin.pin.node, p.pins.iter().map(|x| x.name.as_str()));
+        if p.pin(pin.pin.node).is_none() {
+            let hint = suggest::did_you_mean(pin.pin.node, p.pins.iter().map(|x| x.name.as_str()));
             let reference = p.reference.clone();
             self.err(
                 "unknown-pin",
@@ -878,11 +877,7 @@ pub fn elaborate(
     // Rails and grounds first, so that their kind is known to every part.
     for st in &netlist.statements {
         match &st.kind {
-            StatementKind::Rail {
-                name,
-                nominal,
-                opts,
-            } => e.rail(name, Some(nominal), opts),
+            StatementKind::Rail(r) => e.rail(&r.name, Some(&r.nominal), &r.opts),
             StatementKind::Ground(name) => e.rail(name, None, &[]),
             _ => {}
         }
@@ -902,8 +897,8 @@ pub fn elaborate(
                     );
                 }
                 design_seen = true;
-                e.c.design = Some(name.node.clone());
-                e.c.revision = rev.as_ref().map(|r| r.node.clone());
+                e.c.design = Some(name.node.to_string());
+                e.c.revision = rev.as_ref().map(|r| r.node.to_string());
             }
             StatementKind::Ambient(v) => {
                 if let Some(t) = e.quantity(v, Dimension::Temperature, "ambient") {
@@ -911,7 +906,7 @@ pub fn elaborate(
                 }
             }
             StatementKind::Part(p) => e.part(p, st.span, st.line),
-            StatementKind::Drive { pin, mode } => drives.push((pin, mode, st.span, st.line)),
+            StatementKind::Drive(d) => drives.push((&d.pin, &d.mode, st.span, st.line)),
             _ => {}
         }
     }

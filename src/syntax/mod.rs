@@ -13,6 +13,7 @@ use crate::source::{SourceFile, Span};
 use ast::*;
 use pest::Parser;
 use pest::iterators::Pair;
+use std::borrow::Cow;
 use std::sync::Arc;
 
 #[derive(pest_derive::Parser)]
@@ -124,8 +125,8 @@ fn join_continuations(text: &str) -> std::borrow::Cow<'_, str> {
 }
 
 /// Parse a whole file. Returns the AST of every line that parsed and the
-/// errors of those that did not.
-pub fn parse(file: &Arc<SourceFile>) -> (Netlist, Vec<Finding>) {
+/// errors of those that did not. The AST borrows the file's text.
+pub fn parse(file: &Arc<SourceFile>) -> (Netlist<'_>, Vec<Finding>) {
     use rayon::prelude::*;
     let joined = join_continuations(&file.text);
     let text: &str = &joined;
@@ -138,19 +139,30 @@ pub fn parse(file: &Arc<SourceFile>) -> (Netlist, Vec<Finding>) {
             lines.push((base, raw));
         }
     }
-    // lines parse independently: in parallel, merged back in order
-    let parsed: Vec<(Netlist, Vec<Finding>)> = lines
-        .par_iter()
-        .with_min_len(512)
-        .map(|&(base, raw)| {
+    // Lines parse independently: in parallel, in chunks (one AST vector
+    // per chunk, not per line), merged back in order.
+    let src: &str = &file.text;
+    let parsed: Vec<(Netlist<'_>, Vec<Finding>)> = lines
+        .par_chunks(1024)
+        .map(|chunk| {
             let mut out = Netlist::default();
+            out.statements.reserve(chunk.len());
             let mut errors = Vec::new();
-            parse_line(file, base, raw, &mut out, &mut errors);
+            for &(base, raw) in chunk {
+                let lx = Lower {
+                    file,
+                    src,
+                    base,
+                    errors: &mut errors,
+                };
+                parse_line(lx, raw, &mut out);
+            }
             (out, errors)
         })
         .collect();
     let mut out = Netlist::default();
-    out.statements.reserve(parsed.len());
+    out.statements
+        .reserve(parsed.iter().map(|(n, _)| n.statements.len()).sum());
     let mut errors = Vec::new();
     for (n, mut e) in parsed {
         out.statements.extend(n.statements);
@@ -160,15 +172,34 @@ pub fn parse(file: &Arc<SourceFile>) -> (Netlist, Vec<Finding>) {
     (out, errors)
 }
 
-fn parse_line(
-    file: &Arc<SourceFile>,
+/// What lowering one line needs: the file (for findings), its original
+/// text (which names borrow), the line's byte offset and the error list.
+struct Lower<'a, 'e> {
+    file: &'a Arc<SourceFile>,
+    src: &'a str,
     base: usize,
-    raw: &str,
-    out: &mut Netlist,
-    errors: &mut Vec<Finding>,
-) {
+    errors: &'e mut Vec<Finding>,
+}
+
+impl<'a> Lower<'a, '_> {
+    fn span(&self, p: &Pair<Rule>) -> Span {
+        let s = p.as_span();
+        Span::new(self.base + s.start(), self.base + s.end())
+    }
+
+    /// The original text under a token. Continuation joining only turns
+    /// ASCII bytes into spaces, which no name or value contains, so the
+    /// bytes are those the parser saw.
+    fn text(&self, p: &Pair<Rule>) -> Text<'a> {
+        let span = self.span(p);
+        Spanned::new(self.src.get(span.start..span.end).unwrap_or(""), span)
+    }
+}
+
+fn parse_line<'a>(mut lx: Lower<'a, '_>, raw: &str, out: &mut Netlist<'a>) {
+    let (file, base) = (lx.file, lx.base);
     if raw.len() > MAX_LINE_BYTES {
-        errors.push(
+        lx.errors.push(
             Finding::input(
                 "parse-error",
                 file,
@@ -184,10 +215,10 @@ fn parse_line(
     match NetlistParser::parse(Rule::line, raw) {
         Ok(mut pairs) => {
             if let Some(line) = pairs.next() {
-                lower_line(file, line, base, line_no, out, errors);
+                lower_line(&mut lx, line, line_no, out);
             }
         }
-        Err(e) => errors.push(pest_error(file, &e, raw, base)),
+        Err(e) => lx.errors.push(pest_error(file, &e, raw, base)),
     }
 }
 
@@ -248,35 +279,24 @@ fn join_or(names: &[&str]) -> String {
     }
 }
 
-fn span_of(p: &Pair<Rule>, base: usize) -> Span {
-    let s = p.as_span();
-    Span::new(base + s.start(), base + s.end())
-}
-
-fn lower_line(
-    file: &Arc<SourceFile>,
-    line: Pair<Rule>,
-    base: usize,
-    line_no: usize,
-    out: &mut Netlist,
-    errors: &mut Vec<Finding>,
-) {
+fn lower_line<'a>(lx: &mut Lower<'a, '_>, line: Pair<Rule>, line_no: usize, out: &mut Netlist<'a>) {
     let mut had_statement = false;
     for p in line.into_inner() {
         match p.as_rule() {
             Rule::suppression => {
                 out.suppressions
-                    .push(lower_suppression(p, base, line_no, !had_statement));
+                    .push(lower_suppression(lx, p, line_no, !had_statement));
             }
             Rule::comment => {
                 let text = p.as_str().trim_start_matches('#').trim_start();
                 if text.starts_with("armature:") {
-                    errors.push(
+                    let span = lx.span(&p);
+                    lx.errors.push(
                         Finding::new(
                             "suppression-malformed",
                             crate::finding::Severity::Warning,
-                            file,
-                            span_of(&p, base),
+                            lx.file,
+                            span,
                             "malformed suppression comment",
                         )
                         .label("not understood")
@@ -286,8 +306,8 @@ fn lower_line(
             }
             Rule::EOI => {}
             _ => {
-                let span = span_of(&p, base);
-                if let Some(kind) = lower_statement(file, p, base, errors) {
+                let span = lx.span(&p);
+                if let Some(kind) = lower_statement(lx, p) {
                     had_statement = true;
                     out.statements.push(Statement {
                         kind,
@@ -300,15 +320,20 @@ fn lower_line(
     }
 }
 
-fn lower_suppression(p: Pair<Rule>, base: usize, line: usize, own_line: bool) -> Suppression {
-    let span = span_of(&p, base);
+fn lower_suppression(
+    lx: &Lower<'_, '_>,
+    p: Pair<Rule>,
+    line: usize,
+    own_line: bool,
+) -> Suppression {
+    let span = lx.span(&p);
     let mut rules = Vec::new();
     let mut reason = None;
     for q in p.into_inner() {
         match q.as_rule() {
             Rule::rule_ids => {
                 for r in q.into_inner() {
-                    rules.push(Spanned::new(r.as_str().to_string(), span_of(&r, base)));
+                    rules.push(Spanned::new(r.as_str().to_string(), lx.span(&r)));
                 }
             }
             Rule::reason => {
@@ -329,36 +354,33 @@ fn lower_suppression(p: Pair<Rule>, base: usize, line: usize, own_line: bool) ->
     }
 }
 
-fn lower_statement(
-    file: &Arc<SourceFile>,
-    p: Pair<Rule>,
-    base: usize,
-    errors: &mut Vec<Finding>,
-) -> Option<StatementKind> {
+fn lower_statement<'a>(lx: &mut Lower<'a, '_>, p: Pair<Rule>) -> Option<StatementKind<'a>> {
     match p.as_rule() {
-        Rule::design_stmt => lower_design_stmt(file, p, base, errors),
-        Rule::library_stmt => lower_library_stmt(file, p, base, errors),
-        Rule::ambient_stmt => lower_ambient_stmt(file, p, base, errors),
-        Rule::rail_stmt => lower_rail_stmt(file, p, base, errors),
-        Rule::ground_stmt => lower_ground_stmt(p, base),
-        Rule::drive_stmt => lower_drive_stmt(file, p, base, errors),
-        Rule::part_stmt => lower_part_stmt(file, p, base, errors),
+        Rule::design_stmt => lower_design_stmt(lx, p),
+        Rule::library_stmt => lower_library_stmt(lx, p),
+        Rule::ambient_stmt => lower_ambient_stmt(lx, p),
+        Rule::rail_stmt => lower_rail_stmt(lx, p),
+        Rule::ground_stmt => lower_ground_stmt(lx, p),
+        Rule::drive_stmt => lower_drive_stmt(lx, p),
+        Rule::part_stmt => lower_part_stmt(lx, p),
         _ => None,
     }
 }
 
-fn lower_ident(p: &Pair<Rule>, base: usize) -> Spanned<String> {
-    Spanned::new(p.as_str().to_string(), span_of(p, base))
-}
-
-fn lower_string(
-    file: &Arc<SourceFile>,
-    p: Pair<Rule>,
-    base: usize,
-    errors: &mut Vec<Finding>,
-) -> Spanned<String> {
-    let span = span_of(&p, base);
-    let inner = p.into_inner().next().map(|i| i.as_str()).unwrap_or("");
+/// A quoted string, escapes resolved. Borrowed from the file when it has
+/// no escape and does not span a line continuation.
+fn lower_string<'a>(lx: &mut Lower<'a, '_>, p: Pair<Rule>) -> Spanned<Cow<'a, str>> {
+    let span = lx.span(&p);
+    let inner_pair = p.into_inner().next();
+    let inner = inner_pair.as_ref().map(|i| i.as_str()).unwrap_or("");
+    if !inner.contains('\\')
+        && let Some(i) = &inner_pair
+    {
+        let t = lx.text(i);
+        if t.node == inner {
+            return Spanned::new(Cow::Borrowed(t.node), span);
+        }
+    }
     let mut s = String::with_capacity(inner.len());
     let mut chars = inner.chars();
     while let Some(c) = chars.next() {
@@ -368,10 +390,10 @@ fn lower_string(
                 Some('\\') => s.push('\\'),
                 other => {
                     let shown = other.map(|c| c.to_string()).unwrap_or_default();
-                    errors.push(
+                    lx.errors.push(
                         Finding::input(
                             "parse-error",
-                            file,
+                            lx.file,
                             span,
                             format!("unknown escape `\\{shown}` in a string"),
                         )
@@ -384,81 +406,56 @@ fn lower_string(
             s.push(c);
         }
     }
-    Spanned::new(s, span)
+    Spanned::new(Cow::Owned(s), span)
 }
 
-fn lower_value(
-    file: &Arc<SourceFile>,
-    p: Pair<Rule>,
-    base: usize,
-    errors: &mut Vec<Finding>,
-) -> Spanned<Value> {
-    let span = span_of(&p, base);
+fn lower_value<'a>(lx: &mut Lower<'a, '_>, p: Pair<Rule>) -> Spanned<Value<'a>> {
+    let span = lx.span(&p);
     let inner = p.into_inner().next();
     let v = match inner {
         Some(i) => match i.as_rule() {
             Rule::range => {
                 let mut ends = i.into_inner();
-                let lo = ends.next().map(|e| lower_ident(&e, base));
-                let hi = ends.next().map(|e| lower_ident(&e, base));
+                let lo = ends.next().map(|e| lx.text(&e));
+                let hi = ends.next().map(|e| lx.text(&e));
                 match (lo, hi) {
                     (Some(lo), Some(hi)) => Value::Range(lo, hi),
-                    _ => Value::Atom(String::new()),
+                    _ => Value::Atom(""),
                 }
             }
-            Rule::string => Value::Str(lower_string(file, i, base, errors).node),
-            _ => Value::Atom(i.as_str().to_string()),
+            Rule::string => Value::Str(lower_string(lx, i).node),
+            _ => Value::Atom(lx.text(&i).node),
         },
-        None => Value::Atom(String::new()),
+        None => Value::Atom(""),
     };
     Spanned::new(v, span)
 }
 
-fn lower_design_stmt(
-    file: &Arc<SourceFile>,
-    p: Pair<Rule>,
-    base: usize,
-    errors: &mut Vec<Finding>,
-) -> Option<StatementKind> {
+fn lower_design_stmt<'a>(lx: &mut Lower<'a, '_>, p: Pair<Rule>) -> Option<StatementKind<'a>> {
     let mut strings = p.into_inner().filter(|q| q.as_rule() == Rule::string);
-    let name = lower_string(file, strings.next()?, base, errors);
-    let rev = strings.next().map(|s| lower_string(file, s, base, errors));
+    let name = lower_string(lx, strings.next()?);
+    let rev = strings.next().map(|s| lower_string(lx, s));
     Some(StatementKind::Design { name, rev })
 }
 
-fn lower_library_stmt(
-    file: &Arc<SourceFile>,
-    p: Pair<Rule>,
-    base: usize,
-    errors: &mut Vec<Finding>,
-) -> Option<StatementKind> {
+fn lower_library_stmt<'a>(lx: &mut Lower<'a, '_>, p: Pair<Rule>) -> Option<StatementKind<'a>> {
     let s = p.into_inner().find(|q| q.as_rule() == Rule::string)?;
-    Some(StatementKind::Library(lower_string(file, s, base, errors)))
+    Some(StatementKind::Library(lower_string(lx, s)))
 }
 
-fn lower_ambient_stmt(
-    file: &Arc<SourceFile>,
-    p: Pair<Rule>,
-    base: usize,
-    errors: &mut Vec<Finding>,
-) -> Option<StatementKind> {
+fn lower_ambient_stmt<'a>(lx: &mut Lower<'a, '_>, p: Pair<Rule>) -> Option<StatementKind<'a>> {
     let v = p.into_inner().find(|q| q.as_rule() == Rule::value)?;
-    Some(StatementKind::Ambient(lower_value(file, v, base, errors)))
+    Some(StatementKind::Ambient(lower_value(lx, v)))
 }
 
-fn lower_rail_stmt(
-    file: &Arc<SourceFile>,
-    p: Pair<Rule>,
-    base: usize,
-    errors: &mut Vec<Finding>,
-) -> Option<StatementKind> {
+fn lower_rail_stmt<'a>(lx: &mut Lower<'a, '_>, p: Pair<Rule>) -> Option<StatementKind<'a>> {
     let mut name = None;
     let mut nominal = None;
     let mut opts = Vec::new();
     for q in p.into_inner() {
         match q.as_rule() {
-            Rule::ident => name = Some(lower_ident(&q, base)),
-            Rule::value => nominal = Some(lower_value(file, q, base, errors)),
+            Rule::ident => name = Some(lx.text(&q)),
+            Rule::value => nominal = Some(lower_value(lx, q)),
             Rule::rail_opt => {
                 let mut kind = RailOptKind::Max;
                 let mut value = None;
@@ -467,7 +464,7 @@ fn lower_rail_stmt(
                         Rule::kw_max => kind = RailOptKind::Max,
                         Rule::kw_min => kind = RailOptKind::Min,
                         Rule::kw_tol => kind = RailOptKind::Tol,
-                        Rule::value => value = Some(lower_value(file, r, base, errors)),
+                        Rule::value => value = Some(lower_value(lx, r)),
                         _ => {}
                     }
                 }
@@ -478,36 +475,31 @@ fn lower_rail_stmt(
             _ => {}
         }
     }
-    Some(StatementKind::Rail {
+    Some(StatementKind::Rail(Box::new(RailStmt {
         name: name?,
         nominal: nominal?,
         opts,
-    })
+    })))
 }
 
-fn lower_ground_stmt(p: Pair<Rule>, base: usize) -> Option<StatementKind> {
+fn lower_ground_stmt<'a>(lx: &Lower<'a, '_>, p: Pair<Rule>) -> Option<StatementKind<'a>> {
     let id = p.into_inner().find(|q| q.as_rule() == Rule::ident)?;
-    Some(StatementKind::Ground(lower_ident(&id, base)))
+    Some(StatementKind::Ground(lx.text(&id)))
 }
 
-fn lower_pin_ref(p: Pair<Rule>, base: usize) -> Option<PinRef> {
+fn lower_pin_ref<'a>(lx: &Lower<'a, '_>, p: Pair<Rule>) -> Option<PinRef<'a>> {
     let mut it = p.into_inner();
-    let part = lower_ident(&it.next()?, base);
-    let pin = lower_ident(&it.next()?, base);
+    let part = lx.text(&it.next()?);
+    let pin = lx.text(&it.next()?);
     Some(PinRef { part, pin })
 }
 
-fn lower_drive_stmt(
-    file: &Arc<SourceFile>,
-    p: Pair<Rule>,
-    base: usize,
-    errors: &mut Vec<Finding>,
-) -> Option<StatementKind> {
+fn lower_drive_stmt<'a>(lx: &mut Lower<'a, '_>, p: Pair<Rule>) -> Option<StatementKind<'a>> {
     let mut pin = None;
     let mut mode = None;
     for q in p.into_inner() {
         match q.as_rule() {
-            Rule::pin_ref => pin = lower_pin_ref(q, base),
+            Rule::pin_ref => pin = lower_pin_ref(lx, q),
             Rule::drive_static => mode = Some(DriveMode::Static),
             Rule::drive_pwm => {
                 let mut freq = None;
@@ -516,24 +508,24 @@ fn lower_drive_stmt(
                 let mut deadtime = None;
                 for r in q.into_inner() {
                     match r.as_rule() {
-                        Rule::value => freq = Some(lower_value(file, r, base, errors)),
+                        Rule::value => freq = Some(lower_value(lx, r)),
                         Rule::duty_opt => {
                             duty = r
                                 .into_inner()
                                 .find(|x| x.as_rule() == Rule::value)
-                                .map(|x| lower_value(file, x, base, errors))
+                                .map(|x| lower_value(lx, x))
                         }
                         Rule::complement_opt => {
                             complement = r
                                 .into_inner()
                                 .find(|x| x.as_rule() == Rule::pin_ref)
-                                .and_then(|x| lower_pin_ref(x, base))
+                                .and_then(|x| lower_pin_ref(lx, x))
                         }
                         Rule::deadtime_opt => {
                             deadtime = r
                                 .into_inner()
                                 .find(|x| x.as_rule() == Rule::value)
-                                .map(|x| lower_value(file, x, base, errors))
+                                .map(|x| lower_value(lx, x))
                         }
                         _ => {}
                     }
@@ -548,42 +540,45 @@ fn lower_drive_stmt(
             _ => {}
         }
     }
-    Some(StatementKind::Drive {
+    Some(StatementKind::Drive(Box::new(DriveStmt {
         pin: pin?,
         mode: mode?,
-    })
+    })))
 }
 
-fn lower_part_stmt(
-    file: &Arc<SourceFile>,
-    p: Pair<Rule>,
-    base: usize,
-    errors: &mut Vec<Finding>,
-) -> Option<StatementKind> {
-    let mut idents = Vec::new();
+fn lower_part_stmt<'a>(lx: &mut Lower<'a, '_>, p: Pair<Rule>) -> Option<StatementKind<'a>> {
+    let mut kind = None;
+    let mut reference = None;
     let mut pins = Vec::new();
     let mut pins_span = Span::default();
     let mut value = None;
     let mut params = Vec::new();
     for q in p.into_inner() {
         match q.as_rule() {
-            Rule::ident => idents.push(lower_ident(&q, base)),
+            Rule::ident => {
+                let t = lx.text(&q);
+                if kind.is_none() {
+                    kind = Some(t);
+                } else if reference.is_none() {
+                    reference = Some(t);
+                }
+            }
             Rule::pin_list => {
-                pins_span = span_of(&q, base);
+                pins_span = lx.span(&q);
                 for e in q.into_inner() {
                     match e.as_rule() {
                         Rule::named_pin => {
                             let mut it = e.into_inner().filter(|x| x.as_rule() != Rule::colon);
                             if let (Some(pin), Some(net)) = (it.next(), it.next()) {
                                 pins.push(PinEntry {
-                                    pin: Some(lower_ident(&pin, base)),
-                                    net: lower_ident(&net, base),
+                                    pin: Some(lx.text(&pin)),
+                                    net: lx.text(&net),
                                 });
                             }
                         }
                         Rule::bare_net => pins.push(PinEntry {
                             pin: None,
-                            net: lower_ident(&e, base),
+                            net: lx.text(&e),
                         }),
                         _ => {}
                     }
@@ -591,27 +586,24 @@ fn lower_part_stmt(
             }
             Rule::primary => {
                 if let Some(v) = q.into_inner().next() {
-                    value = Some(lower_value(file, v, base, errors));
+                    value = Some(lower_value(lx, v));
                 }
             }
             Rule::param => {
                 let mut it = q.into_inner().filter(|x| x.as_rule() != Rule::equals);
                 if let (Some(k), Some(v)) = (it.next(), it.next()) {
                     params.push(Param {
-                        key: lower_ident(&k, base),
-                        value: lower_value(file, v, base, errors),
+                        key: lx.text(&k),
+                        value: lower_value(lx, v),
                     });
                 }
             }
             _ => {}
         }
     }
-    let mut it = idents.into_iter();
-    let kind = it.next()?;
-    let reference = it.next()?;
     Some(StatementKind::Part(PartStmt {
-        kind,
-        reference,
+        kind: kind?,
+        reference: reference?,
         pins,
         pins_span,
         value,
@@ -623,9 +615,8 @@ fn lower_part_stmt(
 mod tests {
     use super::*;
 
-    fn parse_ok(text: &str) -> Netlist {
-        let f = SourceFile::from_str("t.drive", text);
-        let (n, e) = parse(&f);
+    fn parse_ok(f: &Arc<SourceFile>) -> Netlist<'_> {
+        let (n, e) = parse(f);
         assert!(
             e.is_empty(),
             "{:?}",
@@ -639,8 +630,34 @@ mod tests {
         let t = "motor M1 (+: VBAT, \\\n   -: SW) r=1ohm\n";
         let j = join_continuations(t);
         assert_eq!(j.len(), t.len());
-        let n = parse_ok(t);
+        let f = SourceFile::from_str("t.drive", t);
+        let n = parse_ok(&f);
         assert_eq!(n.statements.len(), 1);
+        let StatementKind::Part(p) = &n.statements[0].kind else {
+            panic!("not a part")
+        };
+        // names borrowed from the original text, at their own spans
+        assert_eq!(p.pins[1].net.node, "SW");
+        assert_eq!(&t[p.pins[1].net.span.start..p.pins[1].net.span.end], "SW");
+    }
+
+    #[test]
+    fn strings_borrow_unless_escaped_or_continued() {
+        let t = "design \"plain\" rev \"a \\\"q\\\"\"\nlibrary \"one \\\n two\"\n";
+        let f = SourceFile::from_str("t.drive", t);
+        let n = parse_ok(&f);
+        let StatementKind::Design { name, rev } = &n.statements[0].kind else {
+            panic!("not a design")
+        };
+        assert!(matches!(name.node, Cow::Borrowed("plain")));
+        let rev = rev.as_ref().map(|r| r.node.as_ref());
+        assert_eq!(rev, Some("a \"q\""));
+        let StatementKind::Library(lib) = &n.statements[1].kind else {
+            panic!("not a library")
+        };
+        // the continuation is part of the string: its text is the joined one
+        assert!(matches!(lib.node, Cow::Owned(_)));
+        assert_eq!(lib.node, "one    two");
     }
 
     #[test]
