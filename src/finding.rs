@@ -150,6 +150,6 @@ impl Finding {
     }
 
     pub fn line_col(&self) -> (usize, usize) {
-        self.file.line_col(self.span.start)
+        self.file.line_col(self.span.start())
     }
 }

@@ -113,6 +113,9 @@ pub fn build(
         }
     }
     let (circuit, mut elab_errors) = model::elaborate(file, &ast, &libs);
+    // The circuit owns all it needs: free the syntax tree before the
+    // analysis, which then reuses its memory.
+    drop(ast);
     errors.append(&mut elab_errors);
     let mut settings = opts.settings.clone();
     settings.known_part_names = libs.iter().flat_map(|l| l.parts.keys().cloned()).collect();

@@ -7,25 +7,43 @@
 use std::path::{Path, PathBuf};
 use std::sync::Arc;
 
-/// A byte range into a source file.
+/// A byte range into a source file. Stored in 32 bits a side (every
+/// input is capped far below 4 GiB; an offset beyond saturates), which
+/// halves the size of the millions of spans a big netlist carries.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash, PartialOrd, Ord)]
 pub struct Span {
-    pub start: usize,
-    pub end: usize,
+    start: u32,
+    end: u32,
+}
+
+fn offset32(x: usize) -> u32 {
+    u32::try_from(x).unwrap_or(u32::MAX)
 }
 
 impl Span {
     pub fn new(start: usize, end: usize) -> Span {
-        Span { start, end }
+        Span {
+            start: offset32(start),
+            end: offset32(end),
+        }
+    }
+    pub fn start(&self) -> usize {
+        self.start as usize
+    }
+    pub fn end(&self) -> usize {
+        self.end as usize
     }
     pub fn len(&self) -> usize {
-        self.end.saturating_sub(self.start)
+        self.end().saturating_sub(self.start())
     }
     pub fn is_empty(&self) -> bool {
         self.len() == 0
     }
     pub fn join(self, other: Span) -> Span {
-        Span::new(self.start.min(other.start), self.end.max(other.end))
+        Span {
+            start: self.start.min(other.start),
+            end: self.end.max(other.end),
+        }
     }
 }
 
@@ -105,7 +123,7 @@ impl SourceFile {
 
     /// The text of a span, or "" if the span is out of range.
     pub fn slice(&self, span: Span) -> &str {
-        self.text.get(span.start..span.end).unwrap_or("")
+        self.text.get(span.start()..span.end()).unwrap_or("")
     }
 
     /// The text of the zero-based line, without its line break.

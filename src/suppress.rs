@@ -22,7 +22,7 @@ pub fn apply(c: &Circuit, findings: Vec<Finding>) -> (Vec<Finding>, usize) {
             kept.push(f);
             continue;
         }
-        let line = c.file.line_index(f.span.start);
+        let line = c.file.line_index(f.span.start());
         let stmt_line = f
             .parts
             .first()

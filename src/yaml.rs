@@ -324,9 +324,9 @@ mod tests {
         };
         let s = d.value_span("parts/A/vds_max");
         assert_eq!(f.slice(s), "60V");
-        assert_eq!(f.line_col(s.start), (4, 14));
-        assert_eq!(f.line_col(d.key_span("rules/1/id").start), (8, 5));
-        assert_eq!(f.line_col(d.key_span("rules/0/when").start), (7, 5));
+        assert_eq!(f.line_col(s.start()), (4, 14));
+        assert_eq!(f.line_col(d.key_span("rules/1/id").start()), (8, 5));
+        assert_eq!(f.line_col(d.key_span("rules/0/when").start()), (7, 5));
         // unknown path falls back to the nearest ancestor
         assert_eq!(d.key_span("parts/A/nope"), d.key_span("parts/A"));
     }

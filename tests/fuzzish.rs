@@ -14,7 +14,7 @@ fn check_netlist(text: &str) {
     let r = check_source(f, &Options::default(), &Default::default());
     for x in &r.findings {
         assert!(
-            x.span.start <= x.file.text.len() && x.span.end <= x.file.text.len() + 1,
+            x.span.start() <= x.file.text.len() && x.span.end() <= x.file.text.len() + 1,
             "span out of range: {x:?}"
         );
         let _ = armature::report::human::Renderer::plain().render(x);

@@ -175,7 +175,7 @@ fn assert_rejected(text: &str) {
         &text.get(..40.min(text.len()))
     );
     for f in &r.findings {
-        assert!(f.span.start <= text.len(), "span out of range");
+        assert!(f.span.start() <= text.len(), "span out of range");
         let _ = armature::report::human::Renderer::plain().render(f);
     }
 }

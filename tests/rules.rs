@@ -163,11 +163,13 @@ fn primary_label_is_on_the_offending_line() {
     let (_, res) = rules_fired(&fixture_dir("freewheel-missing").join("bad.drive"));
     let f = res.findings.iter().find(|f| f.rule == "freewheel-missing");
     let Some(f) = f else { panic!("no finding") };
-    let line = f.file.line_text(f.file.line_index(f.span.start));
+    let line = f.file.line_text(f.file.line_index(f.span.start()));
     assert!(line.starts_with("motor M1"), "{line}");
     assert_eq!(f.parts, vec!["M1".to_string(), "Q1".to_string()]);
     assert_eq!(f.related.len(), 1);
-    let rel = f.file.line_text(f.file.line_index(f.related[0].span.start));
+    let rel = f
+        .file
+        .line_text(f.file.line_index(f.related[0].span.start()));
     assert!(rel.starts_with("nmos Q1"), "{rel}");
 }
 

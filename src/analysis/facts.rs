@@ -5,7 +5,7 @@ use crate::units::Dimension;
 
 #[derive(Clone, Debug, PartialEq)]
 pub struct Fact {
-    pub name: String,
+    pub name: &'static str,
     pub value: f64,
     pub dim: Dimension,
     /// How it was obtained, for `facts` and messages.
@@ -15,7 +15,7 @@ pub struct Fact {
 /// A fact that could not be computed, with the reason.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Missing {
-    pub name: String,
+    pub name: &'static str,
     pub reason: String,
 }
 
@@ -40,7 +40,7 @@ impl Facts {
     pub fn set(
         &mut self,
         part: usize,
-        name: &str,
+        name: &'static str,
         value: f64,
         dim: Dimension,
         note: Option<String>,
@@ -57,7 +57,7 @@ impl Facts {
                 f.note = note;
             } else {
                 pf.facts.push(Fact {
-                    name: name.to_string(),
+                    name,
                     value,
                     dim,
                     note,
@@ -66,14 +66,14 @@ impl Facts {
         }
     }
 
-    pub fn missing(&mut self, part: usize, name: &str, reason: impl Into<String>) {
+    pub fn missing(&mut self, part: usize, name: &'static str, reason: impl Into<String>) {
         if let Some(pf) = self.parts.get_mut(part) {
             if pf.facts.iter().any(|f| f.name == name) || pf.missing.iter().any(|m| m.name == name)
             {
                 return;
             }
             pf.missing.push(Missing {
-                name: name.to_string(),
+                name,
                 reason: reason.into(),
             });
         }

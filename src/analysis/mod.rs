@@ -964,7 +964,7 @@ pub fn facts_json(b: &crate::Built) -> serde_json::Value {
         if let Some(pf) = b.analysis.facts.parts.get(i) {
             for f in &pf.facts {
                 m.insert(
-                    f.name.clone(),
+                    f.name.to_string(),
                     serde_json::json!({"value": f.value, "unit": f.dim.json_unit()}),
                 );
             }
@@ -986,7 +986,12 @@ pub fn facts_json(b: &crate::Built) -> serde_json::Value {
                 let miss: serde_json::Map<String, serde_json::Value> = pf
                     .missing
                     .iter()
-                    .map(|x| (x.name.clone(), serde_json::Value::String(x.reason.clone())))
+                    .map(|x| {
+                        (
+                            x.name.to_string(),
+                            serde_json::Value::String(x.reason.clone()),
+                        )
+                    })
                     .collect();
                 missing.insert(p.reference.clone(), serde_json::Value::Object(miss));
             }

@@ -151,7 +151,7 @@ pub fn groups(c: &Circuit, g: &CircuitGraph) -> Vec<Group> {
                     continue;
                 }
                 if grp.nets.contains(&pin.net) {
-                    pins.push((pid, pin.name.clone()));
+                    pins.push((pid, pin.name.to_string()));
                 }
             }
         }
@@ -505,7 +505,7 @@ fn stamp(
             Kind::Mcu => {
                 let r_out = p.num("r_out").unwrap_or(MCU_R_OUT);
                 for pin in &p.pins {
-                    match pins.get(&(pid, pin.name.as_str())) {
+                    match pins.get(&(pid, &*pin.name)) {
                         Some(PinState::High) => net.source_to_ref(pin.net, io_v(c, pid), r_out),
                         Some(PinState::Low) => net.source_to_ref(pin.net, 0.0, r_out),
                         _ => {}
@@ -631,7 +631,7 @@ fn currents(
             Kind::Mcu => {
                 let r_out = p.num("r_out").unwrap_or(MCU_R_OUT);
                 for (idx, pin) in p.pins.iter().enumerate() {
-                    let src = match pins.get(&(pid, pin.name.as_str())) {
+                    let src = match pins.get(&(pid, &*pin.name)) {
                         Some(PinState::High) => io_v(c, pid),
                         Some(PinState::Low) => 0.0,
                         _ => continue,

@@ -85,9 +85,9 @@ pub fn ref_of<'a>(ctx: &Ctx<'a>, pid: PartId) -> &'a str {
 /// The first line of a part's statement, from the circuit alone.
 pub fn line_span_of(c: &crate::model::Circuit, p: &Part) -> Span {
     let f = &c.file;
-    let line = f.line_index(p.span.start);
+    let line = f.line_index(p.span.start());
     Span::new(
-        p.span.start,
-        p.span.end.min(f.line_end(line)).max(p.span.start),
+        p.span.start(),
+        p.span.end().min(f.line_end(line)).max(p.span.start()),
     )
 }

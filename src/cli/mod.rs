@@ -415,7 +415,7 @@ fn explain(id: &str, common: &CommonArgs) -> i32 {
     if id.contains('/') {
         let p = profile(config_for(Path::new("./x"), common).as_deref(), common);
         if let Some(r) = p.opts.team.iter().find(|r| r.id == id) {
-            let (l, _) = r.file.line_col(r.span.start);
+            let (l, _) = r.file.line_col(r.span.start());
             println!(
                 "{} (team rule, default {}; {}:{l})\n",
                 r.id, r.severity, r.file.name

@@ -16,6 +16,7 @@ use crate::syntax::ast::{self, DriveMode, RailOptKind, StatementKind, Value};
 use crate::units::{self, Dimension};
 pub use kinds::{KeyType, Kind};
 pub use library::{LibPart, Library};
+use std::borrow::Cow;
 use std::collections::HashMap;
 use std::sync::Arc;
 
@@ -131,7 +132,9 @@ impl Net {
 
 #[derive(Clone, Debug)]
 pub struct Pin {
-    pub name: String,
+    /// The kind's own pin name where it has one (no allocation per pin),
+    /// else the name as written (controller pins).
+    pub name: Cow<'static, str>,
     pub net: NetId,
     /// The `pin: NET` text.
     pub span: Span,
@@ -142,7 +145,8 @@ pub struct Part {
     pub reference: String,
     pub kind: Kind,
     pub pins: Vec<Pin>,
-    pub part_name: Option<String>,
+    /// `part=NAME`, shared between the parts that name the same part.
+    pub part_name: Option<Arc<str>>,
     pub lib: Option<Arc<LibPart>>,
     pub inst: Vec<Param>,
     /// The statement.
@@ -150,7 +154,7 @@ pub struct Part {
     pub ref_span: Span,
     pub line: usize,
     /// `part=NAME` that no library has: (name, span of the value).
-    pub unknown_part: Option<(String, Span)>,
+    pub unknown_part: Option<Box<(String, Span)>>,
     /// Pins listed that the kind does not have: (name, span).
     pub unknown_pins: Vec<(String, Span)>,
     /// Required pins not listed.
@@ -186,9 +190,10 @@ impl Part {
     }
     /// Display name of the part as fitted: `part=` or the kind.
     pub fn part_label(&self) -> String {
-        self.part_name
-            .clone()
-            .unwrap_or_else(|| self.kind.name().to_string())
+        match &self.part_name {
+            Some(n) => n.to_string(),
+            None => self.kind.name().to_string(),
+        }
     }
 }
 
@@ -282,12 +287,23 @@ struct Elab<'a> {
     libs: &'a [Arc<Library>],
     errors: Vec<Finding>,
     c: Circuit,
+    /// One shared copy of each `part=` name.
+    part_names: HashMap<String, Arc<str>>,
 }
 
 const UNKNOWN_KEY: &str = "unknown-key";
 const INVALID_VALUE: &str = "invalid-value";
 
 impl Elab<'_> {
+    fn intern(&mut self, name: String) -> Arc<str> {
+        if let Some(a) = self.part_names.get(&name) {
+            return a.clone();
+        }
+        let a: Arc<str> = Arc::from(name.as_str());
+        self.part_names.insert(name, a.clone());
+        a
+    }
+
     fn err(&mut self, code: &str, span: Span, msg: String, label: &str, help: Option<String>) {
         let mut f = Finding::input(code, self.file, span, msg).label(label);
         if let Some(h) = help.filter(|h| !h.is_empty()) {
@@ -473,12 +489,18 @@ impl Elab<'_> {
         let positional = kind.positional_pins();
         let mut bare_index = 0;
         for entry in &st.pins {
-            let pin_name = match &entry.pin {
-                Some(p) => p.node.to_string(),
+            let pin_name: Cow<'static, str> = match &entry.pin {
+                Some(p) => match kind.pins() {
+                    kinds::PinSpec::Fixed(list) => match list.iter().find(|(n, _)| *n == p.node) {
+                        Some((n, _)) => Cow::Borrowed(*n),
+                        None => Cow::Owned(p.node.to_string()),
+                    },
+                    _ => Cow::Owned(p.node.to_string()),
+                },
                 None => match positional.and_then(|p| p.get(bare_index)) {
                     Some(n) => {
                         bare_index += 1;
-                        n.to_string()
+                        Cow::Borrowed(*n)
                     }
                     None => {
                         let msg = if positional.is_some() {
@@ -504,8 +526,10 @@ impl Elab<'_> {
             if let kinds::PinSpec::Fixed(list) = kind.pins()
                 && !list.iter().any(|(n, _)| *n == pin_name)
             {
-                part.unknown_pins
-                    .push((pin_name, entry.pin.as_ref().map_or(pin_span, |p| p.span)));
+                part.unknown_pins.push((
+                    pin_name.into_owned(),
+                    entry.pin.as_ref().map_or(pin_span, |p| p.span),
+                ));
                 continue;
             }
             if part.pins.iter().any(|p| p.name == pin_name) {
@@ -602,9 +626,9 @@ impl Elab<'_> {
                             part.lib = Some(lp);
                         }
                     }
-                    None => part.unknown_part = Some((name.clone(), p.value.span)),
+                    None => part.unknown_part = Some(Box::new((name.clone(), p.value.span))),
                 }
-                part.part_name = Some(name);
+                part.part_name = Some(self.intern(name));
                 continue;
             }
             let Some(def) = kind.key(p.key.node) else {
@@ -807,7 +831,7 @@ impl Elab<'_> {
             return None;
         }
         if p.pin(pin.pin.node).is_none() {
-            let hint = suggest::did_you_mean(pin.pin.node, p.pins.iter().map(|x| x.name.as_str()));
+            let hint = suggest::did_you_mean(pin.pin.node, p.pins.iter().map(|x| &*x.name));
             let reference = p.reference.clone();
             self.err(
                 "unknown-pin",
@@ -856,6 +880,7 @@ pub fn elaborate(
         file,
         libs,
         errors: Vec::new(),
+        part_names: HashMap::new(),
         c: Circuit {
             file: file.clone(),
             design: None,

@@ -59,8 +59,8 @@ impl fmt::Display for Diag<'_> {
 impl std::error::Error for Diag<'_> {}
 
 fn to_span(s: crate::source::Span, len: usize) -> SourceSpan {
-    let start = s.start.min(len);
-    let end = s.end.min(len).max(start);
+    let start = s.start().min(len);
+    let end = s.end().min(len).max(start);
     SourceSpan::from((start, end - start))
 }
 
@@ -79,7 +79,7 @@ impl Diagnostic for Diag<'_> {
         let mut h = self.f.help.clone().unwrap_or_default();
         for r in &self.f.related {
             if let Some(file) = &r.file {
-                let (l, c) = file.line_col(r.span.start);
+                let (l, c) = file.line_col(r.span.start());
                 if !h.is_empty() {
                     h.push('\n');
                 }

@@ -6,13 +6,13 @@ use serde_json::{Value, json};
 
 pub fn finding(f: &Finding) -> Value {
     let (line, column) = f.line_col();
-    let (end_line, end_column) = f.file.line_col(f.span.end);
+    let (end_line, end_column) = f.file.line_col(f.span.end());
     let related: Vec<Value> = f
         .related
         .iter()
         .map(|r| {
             let file = r.file.as_ref().unwrap_or(&f.file);
-            let (l, c) = file.line_col(r.span.start);
+            let (l, c) = file.line_col(r.span.start());
             json!({"file": file.name, "line": l, "column": c, "label": r.label})
         })
         .collect();

@@ -34,13 +34,13 @@ pub fn sort_findings(v: &mut [Finding]) {
     v.sort_by(|a, b| {
         (
             a.file.name.as_str(),
-            a.span.start,
+            a.span.start(),
             a.rule.as_str(),
             a.message.as_str(),
         )
             .cmp(&(
                 b.file.name.as_str(),
-                b.span.start,
+                b.span.start(),
                 b.rule.as_str(),
                 b.message.as_str(),
             ))

@@ -30,7 +30,7 @@ fn fnv(s: &str) -> String {
 /// A fingerprint from what identifies the fault, not where it is: the
 /// rule, the file, the parts involved and the text of the offending line.
 pub fn fingerprint(f: &Finding) -> String {
-    let line = f.file.line_text(f.file.line_index(f.span.start));
+    let line = f.file.line_text(f.file.line_index(f.span.start()));
     let squeezed: String = line.split_whitespace().collect::<Vec<_>>().join(" ");
     fnv(&format!(
         "{}\u{1f}{}\u{1f}{}\u{1f}{}",
@@ -46,8 +46,8 @@ fn uri(name: &str) -> String {
 }
 
 fn region(file: &crate::source::SourceFile, span: crate::source::Span) -> Value {
-    let (sl, sc) = file.line_col(span.start);
-    let (el, ec) = file.line_col(span.end.max(span.start));
+    let (sl, sc) = file.line_col(span.start());
+    let (el, ec) = file.line_col(span.end().max(span.start()));
     json!({"startLine": sl, "startColumn": sc, "endLine": el, "endColumn": ec.max(if el == sl { sc } else { 1 })})
 }
 

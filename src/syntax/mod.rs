@@ -192,7 +192,7 @@ impl<'a> Lower<'a, '_> {
     /// bytes are those the parser saw.
     fn text(&self, p: &Pair<Rule>) -> Text<'a> {
         let span = self.span(p);
-        Spanned::new(self.src.get(span.start..span.end).unwrap_or(""), span)
+        Spanned::new(self.src.get(span.start()..span.end()).unwrap_or(""), span)
     }
 }
 
@@ -553,6 +553,11 @@ fn lower_part_stmt<'a>(lx: &mut Lower<'a, '_>, p: Pair<Rule>) -> Option<Statemen
     let mut pins_span = Span::default();
     let mut value = None;
     let mut params = Vec::new();
+    let n_params = p
+        .clone()
+        .into_inner()
+        .filter(|q| q.as_rule() == Rule::param)
+        .count();
     for q in p.into_inner() {
         match q.as_rule() {
             Rule::ident => {
@@ -565,6 +570,13 @@ fn lower_part_stmt<'a>(lx: &mut Lower<'a, '_>, p: Pair<Rule>) -> Option<Statemen
             }
             Rule::pin_list => {
                 pins_span = lx.span(&q);
+                // exact capacity: millions of part lines, a few pins each
+                let n = q
+                    .clone()
+                    .into_inner()
+                    .filter(|e| matches!(e.as_rule(), Rule::named_pin | Rule::bare_net))
+                    .count();
+                pins.reserve_exact(n);
                 for e in q.into_inner() {
                     match e.as_rule() {
                         Rule::named_pin => {
@@ -592,6 +604,9 @@ fn lower_part_stmt<'a>(lx: &mut Lower<'a, '_>, p: Pair<Rule>) -> Option<Statemen
             Rule::param => {
                 let mut it = q.into_inner().filter(|x| x.as_rule() != Rule::equals);
                 if let (Some(k), Some(v)) = (it.next(), it.next()) {
+                    if params.is_empty() {
+                        params.reserve_exact(n_params);
+                    }
                     params.push(Param {
                         key: lx.text(&k),
                         value: lower_value(lx, v),
@@ -638,7 +653,10 @@ mod tests {
         };
         // names borrowed from the original text, at their own spans
         assert_eq!(p.pins[1].net.node, "SW");
-        assert_eq!(&t[p.pins[1].net.span.start..p.pins[1].net.span.end], "SW");
+        assert_eq!(
+            &t[p.pins[1].net.span.start()..p.pins[1].net.span.end()],
+            "SW"
+        );
     }
 
     #[test]
@@ -666,6 +684,6 @@ mod tests {
         let (n, e) = parse(&f);
         assert_eq!(n.statements.len(), 2);
         assert_eq!(e.len(), 1);
-        assert_eq!(f.line_col(e[0].span.start).0, 2);
+        assert_eq!(f.line_col(e[0].span.start()).0, 2);
     }
 }

@@ -318,10 +318,10 @@ pub fn load(file: &Arc<SourceFile>) -> Result<Vec<TeamRule>, Vec<Finding>> {
                 }
                 Err(er) => {
                     let span = Span::new(
-                        base + er.span.start,
-                        base + er.span.end.max(er.span.start + 1),
+                        base + er.span.start(),
+                        base + er.span.end().max(er.span.start() + 1),
                     );
-                    let span = if span.end <= file.text.len() {
+                    let span = if span.end() <= file.text.len() {
                         span
                     } else {
                         vspan(key)
@@ -380,9 +380,9 @@ pub fn load(file: &Arc<SourceFile>) -> Result<Vec<TeamRule>, Vec<Finding>> {
 fn value_offset(file: &SourceFile, span: Span) -> usize {
     let s = file.slice(span);
     if s.starts_with('"') || s.starts_with('\'') {
-        span.start + 1
+        span.start() + 1
     } else {
-        span.start
+        span.start()
     }
 }
 
@@ -448,7 +448,11 @@ impl Env for PartEnv<'_> {
         match n {
             "ref" => return Ok(Val::Str(self.p.reference.clone())),
             "kind" => return Ok(Val::Str(self.p.kind.name().into())),
-            "part" => return Ok(Val::Str(self.p.part_name.clone().unwrap_or_default())),
+            "part" => {
+                return Ok(Val::Str(
+                    self.p.part_name.as_deref().unwrap_or_default().to_string(),
+                ));
+            }
             "ambient" => return Ok(Val::Q(self.s.ambient, Dim::of(Dimension::Temperature))),
             _ => {}
         }

@@ -53,7 +53,7 @@ pub fn detect(ctx: &Ctx) -> Vec<(usize, usize, usize)> {
         let Some(b) = p.net_of("b") else { continue };
         let driver = c.net(b).conns.iter().find(|(q, pin)| {
             let qp = c.part(*q);
-            let name = qp.pins.get(*pin).map(|x| x.name.as_str()).unwrap_or("");
+            let name = qp.pins.get(*pin).map(|x| &*x.name).unwrap_or("");
             (qp.kind == Kind::Mcu && !crate::analysis::states::is_supply_pin(name))
                 || (qp.kind == Kind::Driver && (name == "out" || name == "outb"))
         });

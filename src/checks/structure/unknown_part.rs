@@ -51,7 +51,7 @@ pub fn detect<'a>(ctx: &'a Ctx) -> Vec<Unknown<'a>> {
     let c = ctx.circuit;
     let mut out = Vec::new();
     for (i, p) in c.parts.iter().enumerate() {
-        if let Some((name, span)) = &p.unknown_part {
+        if let Some((name, span)) = p.unknown_part.as_deref() {
             let suggestion = suggest::closest(
                 name,
                 ctx.settings.known_part_names.iter().map(|s| s.as_str()),
