@@ -66,8 +66,11 @@ impl CircuitGraph {
             }
         }
         let mut island_of = vec![None; c.nets.len()];
-        let mut islands: Vec<Vec<NetId>> = Vec::new();
-        let mut root_to_island = std::collections::HashMap::new();
+        // sized once: see `model::elaborate` on growing large tables
+        let mut islands: Vec<Vec<NetId>> = Vec::with_capacity(c.nets.len());
+        let mut root_to_island: crate::fasthash::FastMap<usize, usize> =
+            crate::fasthash::FastMap::default();
+        root_to_island.reserve(c.nets.len());
         for (i, net) in c.nets.iter().enumerate() {
             if net.is_fixed() {
                 continue;

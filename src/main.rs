@@ -4,7 +4,33 @@
 #[global_allocator]
 static GLOBAL: mimalloc::MiMalloc = mimalloc::MiMalloc;
 
+/// mimalloc's `purge_delay` option (its index in the v3 option enum,
+/// which the bindings do not name; a test checks the index).
+const MI_OPTION_PURGE_DELAY: libmimalloc_sys::mi_option_t = 15;
+
 fn main() {
+    // A check is a short-lived process: memory it frees is better kept
+    // for its next allocation than handed back to the OS and faulted in
+    // again. On the benchmark VM this cut the page faults of the 160k-part
+    // check from 700-2,200 to about 400.
+    // SAFETY: sets a process-wide allocator option; no memory is touched.
+    unsafe { libmimalloc_sys::mi_option_set(MI_OPTION_PURGE_DELAY, -1) };
     let code = armature::cli::run(std::env::args().collect());
     std::process::exit(code);
+}
+
+#[cfg(test)]
+mod tests {
+    #[test]
+    fn purge_delay_index_is_the_purge_delay_option() {
+        // This mimalloc's default purge delay is 1000 ms; a different
+        // option at this index would have another default.
+        // SAFETY: reads an allocator option.
+        let v = unsafe { libmimalloc_sys::mi_option_get(super::MI_OPTION_PURGE_DELAY) };
+        assert!(
+            v == 1000,
+            "option {} reads {v}",
+            super::MI_OPTION_PURGE_DELAY
+        );
+    }
 }

@@ -217,6 +217,42 @@ fn output_is_identical_across_runs_and_thread_counts() {
     }
 }
 
+#[path = "../benches/gen.rs"]
+#[allow(dead_code)] // the bench uses the rest of the generator
+mod generator;
+
+#[test]
+fn a_large_board_gives_the_same_output_on_one_and_two_threads() {
+    // Big enough that parsing and the group analysis split across threads
+    // (both work in chunks of at least 1,024 lines / 64 groups).
+    let dir = std::env::temp_dir().join(format!("armature-det-{}", std::process::id()));
+    let _ = std::fs::create_dir_all(&dir);
+    let _ = std::fs::write(dir.join("gen-parts.yaml"), generator::LIBRARY);
+    let board = dir.join("board.drive");
+    let _ = std::fs::write(&board, generator::netlist(1200, "gen-parts.yaml"));
+    let path = board.to_string_lossy().into_owned();
+    let mut outs = Vec::new();
+    for threads in ["1", "2", "2"] {
+        for args in [
+            vec!["check", path.as_str(), "--format", "json"],
+            vec!["facts", path.as_str(), "--format", "json"],
+        ] {
+            let (_, out) = run_env(&args, &[("RAYON_NUM_THREADS", threads)], None);
+            outs.push(out);
+        }
+    }
+    let _ = std::fs::remove_dir_all(&dir);
+    assert!(
+        outs[0].contains("\"findings\""),
+        "{}",
+        &outs[0][..outs[0].len().min(300)]
+    );
+    assert!(outs[1].len() > 50_000, "facts of 1,200 channels");
+    for i in 2..outs.len() {
+        assert!(outs[i] == outs[i % 2], "run {i} differs");
+    }
+}
+
 #[test]
 fn colour_only_when_asked_or_on_a_terminal() {
     let (_, plain) = run(&["check", "samples/alarm_relay_faulty.drive"]);

@@ -25,6 +25,66 @@ pub struct PartFacts {
     pub missing: Vec<Missing>,
 }
 
+impl PartFacts {
+    pub fn set(&mut self, name: &'static str, value: f64, dim: Dimension, note: Option<String>) {
+        if !value.is_finite() {
+            self.missing(name, "the computation did not give a finite number");
+            return;
+        }
+        self.missing.retain(|m| m.name != name);
+        if let Some(f) = self.facts.iter_mut().find(|f| f.name == name) {
+            f.value = value;
+            f.dim = dim;
+            f.note = note;
+        } else {
+            self.facts.push(Fact {
+                name,
+                value,
+                dim,
+                note,
+            });
+        }
+    }
+
+    pub fn missing(&mut self, name: &'static str, reason: impl Into<String>) {
+        if self.facts.iter().any(|f| f.name == name) || self.missing.iter().any(|m| m.name == name)
+        {
+            return;
+        }
+        self.missing.push(Missing {
+            name,
+            reason: reason.into(),
+        });
+    }
+
+    pub fn get(&self, name: &str) -> Option<&Fact> {
+        self.facts.iter().find(|f| f.name == name)
+    }
+
+    /// Fold in what another, independent computation learnt about the
+    /// same part. A part reached from several groups (a diode between two
+    /// rails on the freewheel path of several loads) only ever gets
+    /// worst-case facts from them, so the larger value wins, with its note.
+    pub fn merge(&mut self, other: PartFacts) {
+        for f in other.facts {
+            match self.facts.iter_mut().find(|g| g.name == f.name) {
+                Some(g) => {
+                    if f.value > g.value {
+                        *g = f;
+                    }
+                }
+                None => {
+                    self.missing.retain(|m| m.name != f.name);
+                    self.facts.push(f);
+                }
+            }
+        }
+        for m in other.missing {
+            self.missing(m.name, m.reason);
+        }
+    }
+}
+
 #[derive(Clone, Debug, Default)]
 pub struct Facts {
     pub parts: Vec<PartFacts>,
@@ -45,42 +105,19 @@ impl Facts {
         dim: Dimension,
         note: Option<String>,
     ) {
-        if !value.is_finite() {
-            self.missing(part, name, "the computation did not give a finite number");
-            return;
-        }
         if let Some(pf) = self.parts.get_mut(part) {
-            pf.missing.retain(|m| m.name != name);
-            if let Some(f) = pf.facts.iter_mut().find(|f| f.name == name) {
-                f.value = value;
-                f.dim = dim;
-                f.note = note;
-            } else {
-                pf.facts.push(Fact {
-                    name,
-                    value,
-                    dim,
-                    note,
-                });
-            }
+            pf.set(name, value, dim, note);
         }
     }
 
     pub fn missing(&mut self, part: usize, name: &'static str, reason: impl Into<String>) {
         if let Some(pf) = self.parts.get_mut(part) {
-            if pf.facts.iter().any(|f| f.name == name) || pf.missing.iter().any(|m| m.name == name)
-            {
-                return;
-            }
-            pf.missing.push(Missing {
-                name,
-                reason: reason.into(),
-            });
+            pf.missing(name, reason);
         }
     }
 
     pub fn get(&self, part: usize, name: &str) -> Option<&Fact> {
-        self.parts.get(part)?.facts.iter().find(|f| f.name == name)
+        self.parts.get(part)?.get(name)
     }
 
     pub fn value(&self, part: usize, name: &str) -> Option<f64> {
@@ -94,5 +131,102 @@ impl Facts {
             .iter()
             .find(|m| m.name == name)
             .map(|m| m.reason.as_str())
+    }
+
+    /// Fold in the facts one group computed on its own.
+    pub fn merge(&mut self, local: LocalFacts) {
+        let mut parts: Vec<(usize, PartFacts)> = local.parts.into_iter().collect();
+        parts.sort_unstable_by_key(|(p, _)| *p);
+        for (p, pf) in parts {
+            if let Some(g) = self.parts.get_mut(p) {
+                if g.facts.is_empty() && g.missing.is_empty() {
+                    *g = pf;
+                } else {
+                    g.merge(pf);
+                }
+            }
+        }
+    }
+}
+
+/// The facts of the parts one group touches, computed apart from the
+/// other groups (in parallel) and merged afterwards.
+#[derive(Clone, Debug, Default)]
+pub struct LocalFacts {
+    parts: crate::fasthash::FastMap<usize, PartFacts>,
+}
+
+impl LocalFacts {
+    pub fn set(
+        &mut self,
+        part: usize,
+        name: &'static str,
+        value: f64,
+        dim: Dimension,
+        note: Option<String>,
+    ) {
+        self.parts
+            .entry(part)
+            .or_default()
+            .set(name, value, dim, note);
+    }
+
+    pub fn missing(&mut self, part: usize, name: &'static str, reason: impl Into<String>) {
+        self.parts.entry(part).or_default().missing(name, reason);
+    }
+
+    pub fn value(&self, part: usize, name: &str) -> Option<f64> {
+        self.parts.get(&part)?.get(name).map(|f| f.value)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn merging_groups_keeps_the_worst_case_and_its_note() {
+        let mut all = Facts::new(3);
+        let mut g1 = LocalFacts::default();
+        g1.set(
+            1,
+            "i_fw",
+            0.5,
+            Dimension::Current,
+            Some("first load".into()),
+        );
+        g1.missing(2, "tj", "no rth_ja");
+        let mut g2 = LocalFacts::default();
+        g2.set(
+            1,
+            "i_fw",
+            0.9,
+            Dimension::Current,
+            Some("second load".into()),
+        );
+        g2.set(1, "f_pwm", 20e3, Dimension::Frequency, None);
+        g2.set(2, "tj", 80.0, Dimension::Temperature, None);
+        let mut g3 = LocalFacts::default();
+        g3.set(
+            1,
+            "i_fw",
+            0.7,
+            Dimension::Current,
+            Some("third load".into()),
+        );
+        all.merge(g1);
+        all.merge(g2);
+        all.merge(g3);
+        let f = all.get(1, "i_fw");
+        assert_eq!(f.map(|f| f.value), Some(0.9));
+        assert_eq!(f.and_then(|f| f.note.as_deref()), Some("second load"));
+        assert_eq!(all.value(1, "f_pwm"), Some(20e3));
+        // a fact found later clears the reason it was missing
+        assert_eq!(all.value(2, "tj"), Some(80.0));
+        assert_eq!(all.why_missing(2, "tj"), None);
+        // out-of-range parts are ignored, not a panic
+        let mut g4 = LocalFacts::default();
+        g4.set(7, "tj", 1.0, Dimension::Temperature, None);
+        all.merge(g4);
     }
 }

@@ -153,72 +153,61 @@ pub fn analyze(c: &Circuit, g: &CircuitGraph, s: &Settings) -> Analysis {
         ..Analysis::default()
     };
     let groups = states::groups(c, g);
-    // the groups are independent: solve their states on every core, a
-    // chunk at a time so that the solved states of a large board are not
-    // all held at once
+    // reserve the big tables once (see `model::elaborate`)
+    let n_switches = c.parts.iter().filter(|p| p.kind.is_switch()).count();
+    let n_loads = c
+        .parts
+        .iter()
+        .filter(|p| p.kind.is_inductive_load())
+        .count();
+    a.switches.reserve(n_switches);
+    a.loads.reserve(n_loads);
+    a.turnoffs.reserve(2 * n_switches);
+    // The groups are independent: each is solved in its states and
+    // analysed on its own, on every core, a chunk at a time so that the
+    // solved states of a large board are not all held at once. The
+    // results are merged in group order, so the output does not depend
+    // on the number of threads.
     use rayon::prelude::*;
-    const CHUNK: usize = 2048;
+    const CHUNK: usize = 4096;
     for chunk_start in (0..groups.len()).step_by(CHUNK) {
         let chunk = &groups[chunk_start..(chunk_start + CHUNK).min(groups.len())];
-        let solved: Vec<Vec<StateResult>> = chunk
+        let outs: Vec<GroupAcc> = chunk
             .par_iter()
-            .with_min_len(64)
-            .map(|grp| {
-                states::assignments(c, &grp.pins)
-                    .iter()
-                    .map(|x| states::solve_state(c, grp, x, None))
-                    .collect()
-            })
-            .collect();
-        for ((gi, grp), results) in chunk
-            .iter()
             .enumerate()
-            .map(|(i, g)| (i + chunk_start, g))
-            .zip(solved)
-        {
-            if grp.pins.len() > states::MAX_GROUP_PINS {
+            .with_min_len(64)
+            .map(|(i, grp)| analyse_group(c, s, chunk_start + i, grp))
+            .collect();
+        for (i, acc) in outs.into_iter().enumerate() {
+            let gi = chunk_start + i;
+            for (net, hi, lo) in acc.extremes {
+                if let Some(slot) = a.net_vmax.get_mut(net) {
+                    let mx = slot.get_or_insert(hi);
+                    *mx = mx.max(hi);
+                }
+                if let Some(slot) = a.net_vmin.get_mut(net) {
+                    let mn = slot.get_or_insert(lo);
+                    *mn = mn.min(lo);
+                }
+            }
+            if acc.truncated {
                 a.truncated.push(gi);
             }
-            for r in &results {
-                for (&net, &v) in &r.volts {
-                    if r.floating.contains(&net) {
-                        continue;
-                    }
-                    let mx = a.net_vmax[net].get_or_insert(v);
-                    *mx = mx.max(v);
-                    let mn = a.net_vmin[net].get_or_insert(v);
-                    *mn = mn.min(v);
-                }
+            a.facts.merge(acc.facts);
+            let mut sw: Vec<(PartId, SwitchInfo)> = acc.switches.into_iter().collect();
+            sw.sort_unstable_by_key(|(p, _)| *p);
+            a.switches.extend(sw);
+            a.loads.extend(acc.loads);
+            a.turnoffs.extend(acc.turnoffs);
+            a.legs.extend(acc.legs);
+            let mut dm: Vec<(PartId, f64)> = acc.diode_duty_min.into_iter().collect();
+            dm.sort_unstable_by_key(|(p, _)| *p);
+            for (d, m) in dm {
+                let e = a.diode_duty_min.entry(d).or_insert(m);
+                *e = e.min(m);
             }
-            analyse_switches(c, gi, grp, &results, &mut a);
-            analyse_loads(c, s, gi, grp, &results, &mut a);
-            analyse_legs(c, grp, &results, &mut a);
-            analyse_diodes(c, grp, &results, &mut a);
-            if results.iter().any(|r| !r.converged) {
-                let names: Vec<&str> = grp
-                    .nets
-                    .iter()
-                    .take(3)
-                    .map(|&n| c.net(n).name.as_str())
-                    .collect();
-                let first = grp.parts.first().copied();
-                if let Some(p) = first {
-                    a.early.push(
-                        crate::finding::Finding::new(
-                            "analysis-nonconvergent",
-                            crate::finding::Severity::Warning,
-                            &c.file,
-                            c.part(p).span,
-                            format!(
-                                "the switching states around {} did not settle to a consistent state: results for these parts are approximate",
-                                names.iter().map(|n| format!("`{n}`")).collect::<Vec<_>>().join(", ")
-                            ),
-                        )
-                        .label("oscillating piecewise state")
-                        .help("check for a switch that turns itself off (a source follower driving its own gate network)")
-                        .parts([c.part(p).reference.clone()]),
-                    );
-                }
+            if let Some(f) = acc.nonconvergent {
+                a.early.push(f);
             }
         }
     }
@@ -229,12 +218,84 @@ pub fn analyze(c: &Circuit, g: &CircuitGraph, s: &Settings) -> Analysis {
     a
 }
 
+/// What the analysis of one group produced, before it is merged into
+/// the circuit's `Analysis`.
+#[derive(Default)]
+struct GroupAcc {
+    facts: facts::LocalFacts,
+    switches: HashMap<PartId, SwitchInfo>,
+    loads: Vec<LoadInfo>,
+    turnoffs: Vec<TurnOff>,
+    legs: Vec<Leg>,
+    diode_duty_min: HashMap<PartId, f64>,
+    /// (net, highest, lowest) DC voltage over the group's states.
+    extremes: Vec<(NetId, f64, f64)>,
+    truncated: bool,
+    nonconvergent: Option<Finding>,
+}
+
+/// Solve a group in every pin assignment and analyse its switches,
+/// loads, legs and diodes.
+fn analyse_group(c: &Circuit, s: &Settings, gi: usize, grp: &Group) -> GroupAcc {
+    let results: Vec<StateResult> = states::assignments(c, &grp.pins)
+        .iter()
+        .map(|x| states::solve_state(c, grp, x, None))
+        .collect();
+    let mut a = GroupAcc {
+        truncated: grp.pins.len() > states::MAX_GROUP_PINS,
+        ..GroupAcc::default()
+    };
+    let mut ext: HashMap<NetId, (f64, f64)> = HashMap::default();
+    for r in &results {
+        for (&net, &v) in &r.volts {
+            if r.floating.contains(&net) {
+                continue;
+            }
+            let e = ext.entry(net).or_insert((v, v));
+            e.0 = e.0.max(v);
+            e.1 = e.1.min(v);
+        }
+    }
+    a.extremes = ext.into_iter().map(|(n, (hi, lo))| (n, hi, lo)).collect();
+    a.extremes.sort_unstable_by_key(|x| x.0);
+    analyse_switches(c, gi, grp, &results, &mut a);
+    analyse_loads(c, s, gi, grp, &results, &mut a);
+    analyse_legs(c, grp, &results, &mut a);
+    analyse_diodes(c, grp, &results, &mut a);
+    if results.iter().any(|r| !r.converged) {
+        let names: Vec<&str> = grp
+            .nets
+            .iter()
+            .take(3)
+            .map(|&n| c.net(n).name.as_str())
+            .collect();
+        if let Some(&p) = grp.parts.first() {
+            a.nonconvergent = Some(
+                crate::finding::Finding::new(
+                    "analysis-nonconvergent",
+                    crate::finding::Severity::Warning,
+                    &c.file,
+                    c.part(p).span,
+                    format!(
+                        "the switching states around {} did not settle to a consistent state: results for these parts are approximate",
+                        names.iter().map(|n| format!("`{n}`")).collect::<Vec<_>>().join(", ")
+                    ),
+                )
+                .label("oscillating piecewise state")
+                .help("check for a switch that turns itself off (a source follower driving its own gate network)")
+                .parts([c.part(p).reference.clone()]),
+            );
+        }
+    }
+    a
+}
+
 fn analyse_switches(
     c: &Circuit,
     gi: usize,
     grp: &Group,
     results: &[StateResult],
-    a: &mut Analysis,
+    a: &mut GroupAcc,
 ) {
     for &pid in &grp.parts {
         let p = c.part(pid);
@@ -396,7 +457,7 @@ fn analyse_loads(
     gi: usize,
     grp: &Group,
     results: &[StateResult],
-    a: &mut Analysis,
+    a: &mut GroupAcc,
 ) {
     for &lid in &grp.parts {
         let lp = c.part(lid);
@@ -664,7 +725,7 @@ fn analyse_loads(
     }
 }
 
-fn analyse_legs(c: &Circuit, grp: &Group, results: &[StateResult], a: &mut Analysis) {
+fn analyse_legs(c: &Circuit, grp: &Group, results: &[StateResult], a: &mut GroupAcc) {
     let sw: Vec<PartId> = grp
         .parts
         .iter()
@@ -725,7 +786,7 @@ fn analyse_legs(c: &Circuit, grp: &Group, results: &[StateResult], a: &mut Analy
     }
 }
 
-fn analyse_diodes(c: &Circuit, grp: &Group, results: &[StateResult], a: &mut Analysis) {
+fn analyse_diodes(c: &Circuit, grp: &Group, results: &[StateResult], a: &mut GroupAcc) {
     for &d in &grp.parts {
         let p = c.part(d);
         if !p.kind.is_diode() {

@@ -115,7 +115,8 @@ pub fn groups(c: &Circuit, g: &CircuitGraph) -> Vec<Group> {
         }
     }
     let mut by_root: HashMap<usize, usize> = HashMap::default();
-    let mut out: Vec<Group> = Vec::new();
+    by_root.reserve(n);
+    let mut out: Vec<Group> = Vec::with_capacity(n);
     for i in 0..n {
         let r = uf.find(i);
         let gi = *by_root.entry(r).or_insert_with(|| {

@@ -876,6 +876,19 @@ pub fn elaborate(
     netlist: &ast::Netlist,
     libs: &[Arc<Library>],
 ) -> (Circuit, Vec<Finding>) {
+    // Size the big tables up front. Growing a vector of a million entries
+    // by doubling copies it into fresh memory again and again, and fresh
+    // memory is the dearest thing a large board costs; reserved but
+    // untouched capacity costs nothing. A board has about one net per
+    // part.
+    let (mut n_parts, mut n_drives) = (0usize, 0usize);
+    for st in &netlist.statements {
+        match st.kind {
+            StatementKind::Part(_) => n_parts += 1,
+            StatementKind::Drive(_) => n_drives += 1,
+            _ => {}
+        }
+    }
     let mut e = Elab {
         file,
         libs,
@@ -885,16 +898,16 @@ pub fn elaborate(
             file: file.clone(),
             design: None,
             revision: None,
-            nets: Vec::new(),
-            net_by_name: HashMap::new(),
-            parts: Vec::with_capacity(netlist.statements.len()),
-            part_by_ref: HashMap::with_capacity(netlist.statements.len()),
-            drives: Vec::new(),
+            nets: Vec::with_capacity(n_parts + 16),
+            net_by_name: HashMap::with_capacity(n_parts + 16),
+            parts: Vec::with_capacity(n_parts),
+            part_by_ref: HashMap::with_capacity(n_parts),
+            drives: Vec::with_capacity(n_drives),
             ambient: None,
             suppressions: netlist.suppressions.clone(),
             duplicates: Vec::new(),
             library_lines: library_lines(netlist),
-            drive_index: HashMap::new(),
+            drive_index: HashMap::with_capacity(n_drives),
             complement: HashMap::new(),
             fixed_nets: Vec::new(),
         },
@@ -907,7 +920,7 @@ pub fn elaborate(
             _ => {}
         }
     }
-    let mut drives = Vec::new();
+    let mut drives = Vec::with_capacity(n_drives);
     let mut design_seen = false;
     for st in &netlist.statements {
         match &st.kind {
