@@ -9,7 +9,7 @@ pub struct Fact {
     pub value: f64,
     pub dim: Dimension,
     /// How it was obtained, for `facts` and messages.
-    pub note: Option<String>,
+    pub note: Option<Box<str>>,
 }
 
 /// A fact that could not be computed, with the reason.
@@ -32,11 +32,18 @@ impl PartFacts {
             return;
         }
         self.missing.retain(|m| m.name != name);
+        let note = note.map(String::into_boxed_str);
         if let Some(f) = self.facts.iter_mut().find(|f| f.name == name) {
             f.value = value;
             f.dim = dim;
             f.note = note;
         } else {
+            if self.facts.capacity() == 0 {
+                // loads and diodes get 5-6 facts, switches 11: room for 6,
+                // then 12, instead of 4, 8, 16 (a large board has
+                // hundreds of thousands of these lists)
+                self.facts.reserve_exact(6);
+            }
             self.facts.push(Fact {
                 name,
                 value,

@@ -139,35 +139,46 @@ pub fn parse(file: &Arc<SourceFile>) -> (Netlist<'_>, Vec<Finding>) {
             lines.push((base, raw));
         }
     }
-    // Lines parse independently: in parallel, in chunks (one AST vector
-    // per chunk, not per line), merged back in order.
+    // Lines parse independently, in parallel. Each line gives at most one
+    // statement, collected by index straight into its place (then
+    // compacted in place); the rare suppression comments and errors go to
+    // a side list, put back in line order.
     let src: &str = &file.text;
-    let parsed: Vec<(Netlist<'_>, Vec<Finding>)> = lines
-        .par_chunks(1024)
-        .map(|chunk| {
-            let mut out = Netlist::default();
-            out.statements.reserve(chunk.len());
+    type Side = (usize, Vec<Suppression>, Vec<Finding>);
+    let side: std::sync::Mutex<Vec<Side>> = std::sync::Mutex::new(Vec::new());
+    let slots: Vec<Option<Statement<'_>>> = lines
+        .par_iter()
+        .enumerate()
+        .with_min_len(1024)
+        .map(|(i, &(base, raw))| {
             let mut errors = Vec::new();
-            for &(base, raw) in chunk {
-                let lx = Lower {
-                    file,
-                    src,
-                    base,
-                    errors: &mut errors,
-                };
-                parse_line(lx, raw, &mut out);
+            let mut sups = Vec::new();
+            let lx = Lower {
+                file,
+                src,
+                base,
+                errors: &mut errors,
+            };
+            let st = parse_line(lx, raw, &mut sups);
+            if !errors.is_empty() || !sups.is_empty() {
+                side.lock()
+                    .unwrap_or_else(|e| e.into_inner())
+                    .push((i, sups, errors));
             }
-            (out, errors)
+            st
         })
         .collect();
-    let mut out = Netlist::default();
-    out.statements
-        .reserve(parsed.iter().map(|(n, _)| n.statements.len()).sum());
+    let statements: Vec<Statement<'_>> = slots.into_iter().filter_map(|s| s).collect();
+    let mut side = side.into_inner().unwrap_or_else(|e| e.into_inner());
+    side.sort_unstable_by_key(|x| x.0);
+    let mut out = Netlist {
+        statements,
+        suppressions: Vec::new(),
+    };
     let mut errors = Vec::new();
-    for (n, mut e) in parsed {
-        out.statements.extend(n.statements);
-        out.suppressions.extend(n.suppressions);
-        errors.append(&mut e);
+    for (_, mut sups, mut errs) in side {
+        out.suppressions.append(&mut sups);
+        errors.append(&mut errs);
     }
     (out, errors)
 }
@@ -196,7 +207,11 @@ impl<'a> Lower<'a, '_> {
     }
 }
 
-fn parse_line<'a>(mut lx: Lower<'a, '_>, raw: &str, out: &mut Netlist<'a>) {
+fn parse_line<'a>(
+    mut lx: Lower<'a, '_>,
+    raw: &str,
+    sups: &mut Vec<Suppression>,
+) -> Option<Statement<'a>> {
     let (file, base) = (lx.file, lx.base);
     if raw.len() > MAX_LINE_BYTES {
         lx.errors.push(
@@ -209,16 +224,18 @@ fn parse_line<'a>(mut lx: Lower<'a, '_>, raw: &str, out: &mut Netlist<'a>) {
             .label("this line")
             .help("split the statement over several lines with `\\`, or check that the file is a netlist"),
         );
-        return;
+        return None;
     }
     let line_no = file.line_index(base);
     match NetlistParser::parse(Rule::line, raw) {
         Ok(mut pairs) => {
-            if let Some(line) = pairs.next() {
-                lower_line(&mut lx, line, line_no, out);
-            }
+            let line = pairs.next()?;
+            lower_line(&mut lx, line, line_no, sups)
         }
-        Err(e) => lx.errors.push(pest_error(file, &e, raw, base)),
+        Err(e) => {
+            lx.errors.push(pest_error(file, &e, raw, base));
+            None
+        }
     }
 }
 
@@ -279,13 +296,17 @@ fn join_or(names: &[&str]) -> String {
     }
 }
 
-fn lower_line<'a>(lx: &mut Lower<'a, '_>, line: Pair<Rule>, line_no: usize, out: &mut Netlist<'a>) {
-    let mut had_statement = false;
+fn lower_line<'a>(
+    lx: &mut Lower<'a, '_>,
+    line: Pair<Rule>,
+    line_no: usize,
+    sups: &mut Vec<Suppression>,
+) -> Option<Statement<'a>> {
+    let mut statement = None;
     for p in line.into_inner() {
         match p.as_rule() {
             Rule::suppression => {
-                out.suppressions
-                    .push(lower_suppression(lx, p, line_no, !had_statement));
+                sups.push(lower_suppression(lx, p, line_no, statement.is_none()));
             }
             Rule::comment => {
                 let text = p.as_str().trim_start_matches('#').trim_start();
@@ -308,8 +329,7 @@ fn lower_line<'a>(lx: &mut Lower<'a, '_>, line: Pair<Rule>, line_no: usize, out:
             _ => {
                 let span = lx.span(&p);
                 if let Some(kind) = lower_statement(lx, p) {
-                    had_statement = true;
-                    out.statements.push(Statement {
+                    statement = Some(Statement {
                         kind,
                         span,
                         line: line_no,
@@ -318,6 +338,7 @@ fn lower_line<'a>(lx: &mut Lower<'a, '_>, line: Pair<Rule>, line_no: usize, out:
             }
         }
     }
+    statement
 }
 
 fn lower_suppression(
@@ -638,6 +659,16 @@ mod tests {
             e.iter().map(|e| &e.message).collect::<Vec<_>>()
         );
         n
+    }
+
+    #[test]
+    fn statement_slots_compact_in_place() {
+        // `parse` collects one `Option<Statement>` per line and flattens
+        // the vector; equal sizes let that reuse the buffer.
+        assert_eq!(
+            std::mem::size_of::<Option<Statement<'_>>>(),
+            std::mem::size_of::<Statement<'_>>()
+        );
     }
 
     #[test]
