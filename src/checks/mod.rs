@@ -74,16 +74,17 @@ pub fn finding(meta: &RuleMeta, ctx: &Ctx, span: crate::source::Span, message: S
 
 /// Run every built-in rule.
 pub fn run_all(ctx: &Ctx) -> Vec<Finding> {
-    let mut out = Vec::new();
-    for r in registry() {
-        if ctx
-            .settings
-            .severity_of(r.meta.id, r.meta.severity)
-            .is_none()
-        {
-            continue;
-        }
-        out.extend((r.check)(ctx));
-    }
-    out
+    use rayon::prelude::*;
+    // Rules only read the circuit and the analysis: run them side by side,
+    // their findings kept in registry order.
+    let enabled: Vec<Rule> = registry()
+        .into_iter()
+        .filter(|r| {
+            ctx.settings
+                .severity_of(r.meta.id, r.meta.severity)
+                .is_some()
+        })
+        .collect();
+    let per_rule: Vec<Vec<Finding>> = enabled.par_iter().map(|r| (r.check)(ctx)).collect();
+    per_rule.into_iter().flatten().collect()
 }
