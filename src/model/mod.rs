@@ -473,10 +473,10 @@ impl Elab<'_> {
         let mut part = Part {
             reference: st.reference.node.to_string(),
             kind,
-            pins: Vec::new(),
+            pins: Vec::with_capacity(st.pins.len()),
             part_name: None,
             lib: None,
-            inst: Vec::new(),
+            inst: Vec::with_capacity(st.params.len() + usize::from(st.value.is_some())),
             span,
             ref_span: st.reference.span,
             line,
@@ -543,7 +543,12 @@ impl Elab<'_> {
                 continue;
             }
             let net = self.net(entry.net.node, entry.net.span);
-            self.c.nets[net].conns.push((id, part.pins.len()));
+            let conns = &mut self.c.nets[net].conns;
+            if conns.capacity() == 0 {
+                // most nets join two pins: room for two, not four
+                conns.reserve_exact(2);
+            }
+            conns.push((id, part.pins.len()));
             part.pins.push(Pin {
                 name: pin_name,
                 net,
