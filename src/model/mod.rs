@@ -875,11 +875,38 @@ fn pin_help(kind: Kind) -> String {
     }
 }
 
+/// The most parts a netlist may have. A motor-drive board has hundreds;
+/// the limit keeps a runaway generated file from exhausting a CI
+/// runner's memory (1.6M parts take about 2.8 GiB).
+pub const MAX_PARTS: usize = 2_000_000;
+
 /// Build the circuit from the AST and the loaded libraries.
 pub fn elaborate(
     file: &Arc<SourceFile>,
     netlist: &ast::Netlist,
     libs: &[Arc<Library>],
+) -> (Circuit, Vec<Finding>) {
+    elaborate_limited(file, netlist, libs, MAX_PARTS)
+}
+
+/// `2000000` → `2,000,000`.
+fn group_digits(n: usize) -> String {
+    let digits = n.to_string();
+    let mut out = String::with_capacity(digits.len() + digits.len() / 3);
+    for (i, ch) in digits.chars().enumerate() {
+        if i > 0 && (digits.len() - i).is_multiple_of(3) {
+            out.push(',');
+        }
+        out.push(ch);
+    }
+    out
+}
+
+fn elaborate_limited(
+    file: &Arc<SourceFile>,
+    netlist: &ast::Netlist,
+    libs: &[Arc<Library>],
+    max_parts: usize,
 ) -> (Circuit, Vec<Finding>) {
     // Size the big tables up front. Growing a vector of a million entries
     // by doubling copies it into fresh memory again and again, and fresh
@@ -894,6 +921,19 @@ pub fn elaborate(
             _ => {}
         }
     }
+    let over_limit = (n_parts > max_parts).then(|| {
+        netlist
+            .statements
+            .iter()
+            .filter(|st| matches!(st.kind, StatementKind::Part(_)))
+            .nth(max_parts)
+            .map_or(Span::default(), |st| st.span)
+    });
+    let (n_parts, n_drives) = if over_limit.is_some() {
+        (0, 0)
+    } else {
+        (n_parts, n_drives)
+    };
     let mut e = Elab {
         file,
         libs,
@@ -917,6 +957,19 @@ pub fn elaborate(
             fixed_nets: Vec::new(),
         },
     };
+    if let Some(span) = over_limit {
+        e.err(
+            "limit-exceeded",
+            span,
+            format!(
+                "the netlist has more than {} parts, the limit",
+                group_digits(max_parts)
+            ),
+            "first part over the limit",
+            Some("split the design into several netlists (one per board or sub-assembly)".into()),
+        );
+        return (e.c, e.errors);
+    }
     // Rails and grounds first, so that their kind is known to every part.
     for st in &netlist.statements {
         match &st.kind {
@@ -975,4 +1028,30 @@ pub fn elaborate(
         .filter_map(|(i, n)| n.fixed_max().map(|v| (i, v)))
         .collect();
     (c, e.errors)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn too_many_parts_is_one_located_error_and_nothing_elaborated() {
+        let text = "ground GND\nresistor R1 (A, GND) 1k\nresistor R2 (A, GND) 1k\n\
+                    resistor R3 (A, GND) 1k\n";
+        let f = SourceFile::from_str("t.drive", text);
+        let (ast, errs) = crate::syntax::parse(&f);
+        assert!(errs.is_empty());
+        let (c, errs) = elaborate_limited(&f, &ast, &[], 2);
+        assert!(c.parts.is_empty());
+        assert_eq!(errs.len(), 1);
+        let e = &errs[0];
+        assert_eq!(e.rule, "limit-exceeded");
+        assert_eq!(e.class, crate::finding::Class::Input);
+        assert_eq!(e.line_col(), (4, 1));
+        assert_eq!(e.message, "the netlist has more than 2 parts, the limit");
+        assert_eq!(group_digits(2_000_000), "2,000,000");
+        assert_eq!(group_digits(999), "999");
+        let (c, errs) = elaborate_limited(&f, &ast, &[], 3);
+        assert_eq!((c.parts.len(), errs.len()), (3, 0));
+    }
 }
