@@ -507,67 +507,73 @@ fn render(pieces: &[Piece], env: &dyn Env) -> String {
 
 /// Evaluate team rules over a circuit.
 pub fn run(rules: &[Arc<TeamRule>], c: &Circuit, a: &Analysis, s: &Settings) -> Vec<Finding> {
+    use rayon::prelude::*;
+    // Rules are independent: evaluate them side by side, findings kept in
+    // the rules' order.
+    let per_rule: Vec<Vec<Finding>> = rules.par_iter().map(|r| run_rule(r, c, a, s)).collect();
+    per_rule.into_iter().flatten().collect()
+}
+
+fn run_rule(r: &TeamRule, c: &Circuit, a: &Analysis, s: &Settings) -> Vec<Finding> {
     let mut out = Vec::new();
-    for r in rules {
-        let Some(sev) = s.severity_of(&r.id, r.severity) else {
+    let Some(sev) = s.severity_of(&r.id, r.severity) else {
+        return out;
+    };
+    for (pid, p) in c.parts.iter().enumerate() {
+        if !r.kinds.contains(&p.kind) {
             continue;
+        }
+        if let Some(g) = &r.parts
+            && !glob(g, p.part_name.as_deref().unwrap_or(""))
+        {
+            continue;
+        }
+        let env = PartEnv { a, s, pid, p };
+        let line = crate::checks::common::line_span_of(c, p);
+        let cannot = |why: String| -> Finding {
+            Finding::new(
+                r.id.clone(),
+                Severity::Warning,
+                &c.file,
+                line,
+                format!("`{}` {why}: {} cannot be checked", p.reference, r.id),
+            )
+            .label("not checked")
+            .related_in(&r.file, r.span, "rule defined here")
+            .parts([p.reference.clone()])
+            .help("add the missing value to the part's line or to its library entry")
         };
-        for (pid, p) in c.parts.iter().enumerate() {
-            if !r.kinds.contains(&p.kind) {
-                continue;
+        let describe = |e: EvalError| match e {
+            EvalError::Missing(n) => {
+                let why = c.circuit_missing_reason(a, pid, &n);
+                format!("has no `{n}`{why}")
             }
-            if let Some(g) = &r.parts
-                && !glob(g, p.part_name.as_deref().unwrap_or(""))
-            {
-                continue;
-            }
-            let env = PartEnv { a, s, pid, p };
-            let line = crate::checks::common::line_span_of(c, p);
-            let cannot = |why: String| -> Finding {
-                Finding::new(
-                    r.id.clone(),
-                    Severity::Warning,
-                    &c.file,
-                    line,
-                    format!("`{}` {why}: {} cannot be checked", p.reference, r.id),
-                )
-                .label("not checked")
-                .related_in(&r.file, r.span, "rule defined here")
-                .parts([p.reference.clone()])
-                .help("add the missing value to the part's line or to its library entry")
-            };
-            let describe = |e: EvalError| match e {
-                EvalError::Missing(n) => {
-                    let why = c.circuit_missing_reason(a, pid, &n);
-                    format!("has no `{n}`{why}")
-                }
-                EvalError::Math(m) => format!("gives {m}"),
-            };
-            if let Some((w, _)) = &r.when {
-                match expr::eval(w, &env).and_then(expr::finite) {
-                    Ok(Val::Bool(true)) => {}
-                    Ok(_) => continue,
-                    Err(e) => {
-                        out.push(cannot(describe(e)));
-                        continue;
-                    }
-                }
-            }
-            match expr::eval(&r.require.0, &env).and_then(expr::finite) {
+            EvalError::Math(m) => format!("gives {m}"),
+        };
+        if let Some((w, _)) = &r.when {
+            match expr::eval(w, &env).and_then(expr::finite) {
                 Ok(Val::Bool(true)) => {}
-                Ok(_) => {
-                    let mut f =
-                        Finding::new(r.id.clone(), sev, &c.file, line, render(&r.message, &env))
-                            .label(format!("fails `{}`", r.require.1))
-                            .related_in(&r.file, r.span, "rule defined here")
-                            .parts([p.reference.clone()]);
-                    if let Some(h) = &r.help {
-                        f = f.help(render(h, &env));
-                    }
-                    out.push(f);
+                Ok(_) => continue,
+                Err(e) => {
+                    out.push(cannot(describe(e)));
+                    continue;
                 }
-                Err(e) => out.push(cannot(describe(e))),
             }
+        }
+        match expr::eval(&r.require.0, &env).and_then(expr::finite) {
+            Ok(Val::Bool(true)) => {}
+            Ok(_) => {
+                let mut f =
+                    Finding::new(r.id.clone(), sev, &c.file, line, render(&r.message, &env))
+                        .label(format!("fails `{}`", r.require.1))
+                        .related_in(&r.file, r.span, "rule defined here")
+                        .parts([p.reference.clone()]);
+                if let Some(h) = &r.help {
+                    f = f.help(render(h, &env));
+                }
+                out.push(f);
+            }
+            Err(e) => out.push(cannot(describe(e))),
         }
     }
     out
