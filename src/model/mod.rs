@@ -282,157 +282,33 @@ pub fn library_lines(ast: &ast::Netlist) -> Vec<(String, Span)> {
         .collect()
 }
 
-struct Elab<'a> {
+/// The per-line half of elaboration: reads one part line and the
+/// libraries, nothing else, so part lines are drafted in parallel.
+struct Drafter<'a> {
     file: &'a Arc<SourceFile>,
     libs: &'a [Arc<Library>],
     errors: Vec<Finding>,
-    c: Circuit,
-    /// One shared copy of each `part=` name.
-    part_names: HashMap<String, Arc<str>>,
 }
 
-const UNKNOWN_KEY: &str = "unknown-key";
-const INVALID_VALUE: &str = "invalid-value";
-
-impl Elab<'_> {
-    fn intern(&mut self, name: String) -> Arc<str> {
-        if let Some(a) = self.part_names.get(&name) {
-            return a.clone();
-        }
-        let a: Arc<str> = Arc::from(name.as_str());
-        self.part_names.insert(name, a.clone());
-        a
-    }
-
+impl Drafter<'_> {
     fn err(&mut self, code: &str, span: Span, msg: String, label: &str, help: Option<String>) {
-        let mut f = Finding::input(code, self.file, span, msg).label(label);
-        if let Some(h) = help.filter(|h| !h.is_empty()) {
-            f = f.help(h);
-        }
-        self.errors.push(f);
-    }
-
-    fn net(&mut self, name: &str, span: Span) -> NetId {
-        if let Some(&id) = self.c.net_by_name.get(name) {
-            return id;
-        }
-        let id = self.c.nets.len();
-        self.c.nets.push(Net {
-            name: name.to_string(),
-            kind: NetKind::Signal,
-            conns: Vec::new(),
-            span,
-        });
-        self.c.net_by_name.insert(name.to_string(), id);
-        id
-    }
-
-    fn quantity(&mut self, v: &ast::Spanned<Value>, dim: Dimension, what: &str) -> Option<f64> {
-        match &v.node {
-            Value::Atom(t) => match units::parse_as(t, dim) {
-                Ok(q) => Some(q.value),
-                Err(e) => {
-                    self.err(
-                        INVALID_VALUE,
-                        v.span,
-                        format!("{what}: {e}"),
-                        &format!("expected {}", dim.article_name()),
-                        None,
-                    );
-                    None
-                }
-            },
-            other => {
-                self.err(
-                    INVALID_VALUE,
-                    v.span,
-                    format!(
-                        "{what}: expected {}, found {}",
-                        dim.article_name(),
-                        other.describe()
-                    ),
-                    "here",
-                    None,
-                );
-                None
-            }
-        }
+        push_input(&mut self.errors, self.file, code, span, msg, label, help);
     }
 
     fn find_lib_part(&self, name: &str) -> Option<Arc<LibPart>> {
         self.libs.iter().find_map(|l| l.parts.get(name).cloned())
     }
 
-    fn rail(
+    /// Everything about a part line that needs no other line: kind,
+    /// pins, values, library part. Pins come back with `net` holding the
+    /// index of their entry in `st.pins`; `Elab::commit` turns it into the
+    /// net. Also returns the `part=` name, for sharing.
+    fn draft(
         &mut self,
-        name: &ast::Text<'_>,
-        nominal: Option<&ast::Spanned<Value<'_>>>,
-        opts: &[ast::RailOpt],
-    ) {
-        let id = self.net(name.node, name.span);
-        if self.c.nets[id].is_fixed() {
-            self.err(
-                "invalid-value",
-                name.span,
-                format!("`{}` is declared twice as a rail or ground", name.node),
-                "declared again here",
-                Some("declare each rail or ground once".to_string()),
-            );
-            return;
-        }
-        self.c.nets[id].span = name.span;
-        // no nominal voltage: a ground
-        let Some(nominal) = nominal else {
-            self.c.nets[id].kind = NetKind::Ground;
-            return;
-        };
-        let Some(nom) = self.quantity(nominal, Dimension::Voltage, "rail voltage") else {
-            return;
-        };
-        let mut r = Rail {
-            nominal: nom,
-            max: nom,
-            min: nom,
-        };
-        for o in opts {
-            match o.kind {
-                RailOptKind::Max => {
-                    if let Some(v) = self.quantity(&o.value, Dimension::Voltage, "rail maximum") {
-                        r.max = v;
-                    }
-                }
-                RailOptKind::Min => {
-                    if let Some(v) = self.quantity(&o.value, Dimension::Voltage, "rail minimum") {
-                        r.min = v;
-                    }
-                }
-                RailOptKind::Tol => {
-                    if let Some(t) = self.quantity(&o.value, Dimension::Number, "rail tolerance") {
-                        let t = t.abs();
-                        r.max = nom + nom.abs() * t;
-                        r.min = nom - nom.abs() * t;
-                    }
-                }
-            }
-        }
-        if r.max < r.min {
-            self.err(
-                INVALID_VALUE,
-                name.span,
-                format!(
-                    "rail `{}` has a maximum ({}) below its minimum ({})",
-                    name.node,
-                    units::format_si(r.max, Dimension::Voltage),
-                    units::format_si(r.min, Dimension::Voltage)
-                ),
-                "this rail",
-                None,
-            );
-        }
-        self.c.nets[id].kind = NetKind::Rail(r);
-    }
-
-    fn part(&mut self, st: &ast::PartStmt, span: Span, line: usize) {
+        st: &ast::PartStmt,
+        span: Span,
+        line: usize,
+    ) -> Option<(Part, Option<String>)> {
         let Some(kind) = Kind::from_name(st.kind.node) else {
             let alias = match st.kind.node.to_ascii_lowercase().as_str() {
                 "mosfet" | "fet" | "nfet" | "nch" => Some("nmos"),
@@ -467,9 +343,9 @@ impl Elab<'_> {
                     hint
                 }),
             );
-            return;
+            return None;
         };
-        let id = self.c.parts.len();
+        let mut part_name = None;
         let mut part = Part {
             reference: st.reference.node.to_string(),
             kind,
@@ -488,7 +364,7 @@ impl Elab<'_> {
         // pins
         let positional = kind.positional_pins();
         let mut bare_index = 0;
-        for entry in &st.pins {
+        for (entry_index, entry) in st.pins.iter().enumerate() {
             let pin_name: Cow<'static, str> = match &entry.pin {
                 Some(p) => match kind.pins() {
                     kinds::PinSpec::Fixed(list) => match list.iter().find(|(n, _)| *n == p.node) {
@@ -542,16 +418,9 @@ impl Elab<'_> {
                 );
                 continue;
             }
-            let net = self.net(entry.net.node, entry.net.span);
-            let conns = &mut self.c.nets[net].conns;
-            if conns.capacity() == 0 {
-                // most nets join two pins: room for two, not four
-                conns.reserve_exact(2);
-            }
-            conns.push((id, part.pins.len()));
             part.pins.push(Pin {
                 name: pin_name,
-                net,
+                net: entry_index,
                 span: pin_span,
             });
         }
@@ -633,7 +502,7 @@ impl Elab<'_> {
                     }
                     None => part.unknown_part = Some(Box::new((name.clone(), p.value.span))),
                 }
-                part.part_name = Some(self.intern(name));
+                part_name = Some(name);
                 continue;
             }
             let Some(def) = kind.key(p.key.node) else {
@@ -669,12 +538,7 @@ impl Elab<'_> {
                 part.inst.push(param);
             }
         }
-        if let Some(&first) = self.c.part_by_ref.get(&part.reference) {
-            self.c.duplicates.push((first, id));
-        } else {
-            self.c.part_by_ref.insert(part.reference.clone(), id);
-        }
-        self.c.parts.push(part);
+        Some((part, part_name))
     }
 
     fn param_value(&mut self, kind: Kind, key: &str, v: &ast::Spanned<Value>) -> Option<Param> {
@@ -721,6 +585,194 @@ impl Elab<'_> {
                 None
             }
         }
+    }
+}
+
+fn push_input(
+    errors: &mut Vec<Finding>,
+    file: &Arc<SourceFile>,
+    code: &str,
+    span: Span,
+    msg: String,
+    label: &str,
+    help: Option<String>,
+) {
+    let mut f = Finding::input(code, file, span, msg).label(label);
+    if let Some(h) = help.filter(|h| !h.is_empty()) {
+        f = f.help(h);
+    }
+    errors.push(f);
+}
+
+struct Elab<'a> {
+    file: &'a Arc<SourceFile>,
+    errors: Vec<Finding>,
+    c: Circuit,
+    /// One shared copy of each `part=` name.
+    part_names: HashMap<String, Arc<str>>,
+}
+
+const UNKNOWN_KEY: &str = "unknown-key";
+const INVALID_VALUE: &str = "invalid-value";
+
+impl Elab<'_> {
+    fn intern(&mut self, name: String) -> Arc<str> {
+        if let Some(a) = self.part_names.get(&name) {
+            return a.clone();
+        }
+        let a: Arc<str> = Arc::from(name.as_str());
+        self.part_names.insert(name, a.clone());
+        a
+    }
+
+    fn err(&mut self, code: &str, span: Span, msg: String, label: &str, help: Option<String>) {
+        push_input(&mut self.errors, self.file, code, span, msg, label, help);
+    }
+
+    /// The shared half of a part line: its nets, its place in the part
+    /// list and the reference table.
+    fn commit(&mut self, st: &ast::PartStmt, mut part: Part, part_name: Option<String>) {
+        let id = self.c.parts.len();
+        for k in 0..part.pins.len() {
+            let Some(entry) = part.pins.get(k).and_then(|p| st.pins.get(p.net)) else {
+                continue;
+            };
+            let net = self.net(entry.net.node, entry.net.span);
+            let conns = &mut self.c.nets[net].conns;
+            if conns.capacity() == 0 {
+                // most nets join two pins: room for two, not four
+                conns.reserve_exact(2);
+            }
+            conns.push((id, k));
+            if let Some(p) = part.pins.get_mut(k) {
+                p.net = net;
+            }
+        }
+        if let Some(name) = part_name {
+            part.part_name = Some(self.intern(name));
+        }
+        if let Some(&first) = self.c.part_by_ref.get(&part.reference) {
+            self.c.duplicates.push((first, id));
+        } else {
+            self.c.part_by_ref.insert(part.reference.clone(), id);
+        }
+        self.c.parts.push(part);
+    }
+
+    fn net(&mut self, name: &str, span: Span) -> NetId {
+        if let Some(&id) = self.c.net_by_name.get(name) {
+            return id;
+        }
+        let id = self.c.nets.len();
+        self.c.nets.push(Net {
+            name: name.to_string(),
+            kind: NetKind::Signal,
+            conns: Vec::new(),
+            span,
+        });
+        self.c.net_by_name.insert(name.to_string(), id);
+        id
+    }
+
+    fn quantity(&mut self, v: &ast::Spanned<Value>, dim: Dimension, what: &str) -> Option<f64> {
+        match &v.node {
+            Value::Atom(t) => match units::parse_as(t, dim) {
+                Ok(q) => Some(q.value),
+                Err(e) => {
+                    self.err(
+                        INVALID_VALUE,
+                        v.span,
+                        format!("{what}: {e}"),
+                        &format!("expected {}", dim.article_name()),
+                        None,
+                    );
+                    None
+                }
+            },
+            other => {
+                self.err(
+                    INVALID_VALUE,
+                    v.span,
+                    format!(
+                        "{what}: expected {}, found {}",
+                        dim.article_name(),
+                        other.describe()
+                    ),
+                    "here",
+                    None,
+                );
+                None
+            }
+        }
+    }
+
+    fn rail(
+        &mut self,
+        name: &ast::Text<'_>,
+        nominal: Option<&ast::Spanned<Value<'_>>>,
+        opts: &[ast::RailOpt],
+    ) {
+        let id = self.net(name.node, name.span);
+        if self.c.nets[id].is_fixed() {
+            self.err(
+                "invalid-value",
+                name.span,
+                format!("`{}` is declared twice as a rail or ground", name.node),
+                "declared again here",
+                Some("declare each rail or ground once".to_string()),
+            );
+            return;
+        }
+        self.c.nets[id].span = name.span;
+        // no nominal voltage: a ground
+        let Some(nominal) = nominal else {
+            self.c.nets[id].kind = NetKind::Ground;
+            return;
+        };
+        let Some(nom) = self.quantity(nominal, Dimension::Voltage, "rail voltage") else {
+            return;
+        };
+        let mut r = Rail {
+            nominal: nom,
+            max: nom,
+            min: nom,
+        };
+        for o in opts {
+            match o.kind {
+                RailOptKind::Max => {
+                    if let Some(v) = self.quantity(&o.value, Dimension::Voltage, "rail maximum") {
+                        r.max = v;
+                    }
+                }
+                RailOptKind::Min => {
+                    if let Some(v) = self.quantity(&o.value, Dimension::Voltage, "rail minimum") {
+                        r.min = v;
+                    }
+                }
+                RailOptKind::Tol => {
+                    if let Some(t) = self.quantity(&o.value, Dimension::Number, "rail tolerance") {
+                        let t = t.abs();
+                        r.max = nom + nom.abs() * t;
+                        r.min = nom - nom.abs() * t;
+                    }
+                }
+            }
+        }
+        if r.max < r.min {
+            self.err(
+                INVALID_VALUE,
+                name.span,
+                format!(
+                    "rail `{}` has a maximum ({}) below its minimum ({})",
+                    name.node,
+                    units::format_si(r.max, Dimension::Voltage),
+                    units::format_si(r.min, Dimension::Voltage)
+                ),
+                "this rail",
+                None,
+            );
+        }
+        self.c.nets[id].kind = NetKind::Rail(r);
     }
 
     fn drive(
@@ -936,7 +988,6 @@ fn elaborate_limited(
     };
     let mut e = Elab {
         file,
-        libs,
         errors: Vec::new(),
         part_names: HashMap::new(),
         c: Circuit {
@@ -980,30 +1031,60 @@ fn elaborate_limited(
     }
     let mut drives = Vec::with_capacity(n_drives);
     let mut design_seen = false;
-    for st in &netlist.statements {
-        match &st.kind {
-            StatementKind::Design { name, rev } => {
-                if design_seen {
-                    e.err(
-                        "parse-error",
-                        st.span,
-                        "`design` may appear only once".into(),
-                        "second `design`",
-                        None,
-                    );
+    // Part lines are drafted in parallel a block at a time (the drafts of
+    // a block are small next to the circuit), then committed in order.
+    use rayon::prelude::*;
+    type Drafted = Option<(Option<(Part, Option<String>)>, Vec<Finding>)>;
+    const BLOCK: usize = 16 * 1024;
+    for block in netlist.statements.chunks(BLOCK) {
+        let drafts: Vec<Drafted> = block
+            .par_iter()
+            .with_min_len(256)
+            .map(|st| match &st.kind {
+                StatementKind::Part(p) => {
+                    let mut d = Drafter {
+                        file,
+                        libs,
+                        errors: Vec::new(),
+                    };
+                    let r = d.draft(p, st.span, st.line);
+                    Some((r, d.errors))
                 }
-                design_seen = true;
-                e.c.design = Some(name.node.to_string());
-                e.c.revision = rev.as_ref().map(|r| r.node.to_string());
-            }
-            StatementKind::Ambient(v) => {
-                if let Some(t) = e.quantity(v, Dimension::Temperature, "ambient") {
-                    e.c.ambient = Some((t, v.span));
+                _ => None,
+            })
+            .collect();
+        for (st, drafted) in block.iter().zip(drafts) {
+            match &st.kind {
+                StatementKind::Design { name, rev } => {
+                    if design_seen {
+                        e.err(
+                            "parse-error",
+                            st.span,
+                            "`design` may appear only once".into(),
+                            "second `design`",
+                            None,
+                        );
+                    }
+                    design_seen = true;
+                    e.c.design = Some(name.node.to_string());
+                    e.c.revision = rev.as_ref().map(|r| r.node.to_string());
                 }
+                StatementKind::Ambient(v) => {
+                    if let Some(t) = e.quantity(v, Dimension::Temperature, "ambient") {
+                        e.c.ambient = Some((t, v.span));
+                    }
+                }
+                StatementKind::Part(p) => {
+                    if let Some((draft, mut errors)) = drafted {
+                        e.errors.append(&mut errors);
+                        if let Some((part, name)) = draft {
+                            e.commit(p, part, name);
+                        }
+                    }
+                }
+                StatementKind::Drive(d) => drives.push((&d.pin, &d.mode, st.span, st.line)),
+                _ => {}
             }
-            StatementKind::Part(p) => e.part(p, st.span, st.line),
-            StatementKind::Drive(d) => drives.push((&d.pin, &d.mode, st.span, st.line)),
-            _ => {}
         }
     }
     for (pin, mode, span, line) in drives {
