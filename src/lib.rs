@@ -68,21 +68,22 @@ pub struct Built {
     pub settings: Settings,
 }
 
-/// Parse, elaborate and analyse; `Err` with the input errors when the file
-/// cannot be checked.
-pub fn build(
+/// Load the netlist's `library` lines (relative to its folder) and the
+/// libraries given on the command line or in the configuration.
+fn load_libraries(
     file: &Arc<SourceFile>,
+    header: &syntax::ast::Netlist<'_>,
     opts: &Options,
     cache: &LibraryCache,
-) -> Result<Built, Vec<Finding>> {
-    let (ast, mut errors) = syntax::parse(file);
+    errors: &mut Vec<Finding>,
+) -> Vec<Arc<Library>> {
     let mut libs: Vec<Arc<Library>> = Vec::new();
     let base = file
         .path
         .parent()
         .map(Path::to_path_buf)
         .unwrap_or_default();
-    for (text, span) in model::library_lines(&ast) {
+    for (text, span) in model::library_lines(header) {
         let path = base.join(&text);
         let shown = shown_path(&path);
         match cache.load(&path, &shown) {
@@ -112,10 +113,58 @@ pub fn build(
             Err(errs) => errors.extend(errs),
         }
     }
-    let (circuit, mut elab_errors) = model::elaborate(file, &ast, &libs);
-    // The circuit owns all it needs: free the syntax tree before the
-    // analysis, which then reuses its memory.
-    drop(ast);
+    libs
+}
+
+/// Parse, elaborate and analyse; `Err` with the input errors when the file
+/// cannot be checked.
+pub fn build(
+    file: &Arc<SourceFile>,
+    opts: &Options,
+    cache: &LibraryCache,
+) -> Result<Built, Vec<Finding>> {
+    // The file is read in two passes over its lines: first the lines that
+    // every part depends on (rails, grounds, libraries), then the rest in
+    // blocks, each parsed and elaborated and then dropped, so that the
+    // syntax tree of a large board never exists whole.
+    let lines = syntax::Lines::new(file);
+    let all = lines.all();
+    let (mut header_lines, mut body_lines, mut n_drives) = (Vec::new(), Vec::new(), 0usize);
+    for &(base, text) in &all {
+        match syntax::Lines::class(text) {
+            syntax::LineClass::Header => header_lines.push((base, text)),
+            syntax::LineClass::Drive => {
+                n_drives += 1;
+                body_lines.push((base, text));
+            }
+            syntax::LineClass::Body => body_lines.push((base, text)),
+        }
+    }
+    drop(all);
+    let (header, mut header_errors) = syntax::parse_lines(file, header_lines);
+    let mut errors = Vec::new();
+    let libs = load_libraries(file, &header, opts, cache, &mut errors);
+    let (circuit, mut elab_errors) = if body_lines.len() - n_drives > model::MAX_PARTS {
+        // perhaps over the part limit: the whole-tree path reports it at
+        // the first part beyond it (and parses the header lines again)
+        drop(body_lines);
+        let (ast, mut e) = syntax::parse(file);
+        errors.append(&mut e);
+        model::elaborate(file, &ast, &libs)
+    } else {
+        errors.append(&mut header_errors);
+        let mut el = model::Elaborator::new(file, &libs, body_lines.len() - n_drives, n_drives);
+        el.header(&header.statements);
+        el.suppressions(header.suppressions);
+        for block in body_lines.chunks(64 * 1024) {
+            let (ast, mut e) = syntax::parse_lines(file, block.to_vec());
+            errors.append(&mut e);
+            el.body(&ast.statements);
+            el.suppressions(ast.suppressions);
+        }
+        el.finish()
+    };
+    drop(lines);
     errors.append(&mut elab_errors);
     let mut settings = opts.settings.clone();
     settings.known_part_names = libs.iter().flat_map(|l| l.parts.keys().cloned()).collect();

@@ -615,7 +615,36 @@ struct Elab<'a> {
 const UNKNOWN_KEY: &str = "unknown-key";
 const INVALID_VALUE: &str = "invalid-value";
 
-impl Elab<'_> {
+impl<'a> Elab<'a> {
+    /// Size the big tables up front. Growing a vector of a million
+    /// entries by doubling copies it into fresh memory again and again,
+    /// and fresh memory is the dearest thing a large board costs;
+    /// reserved but untouched capacity costs nothing. A board has about
+    /// one net per part.
+    fn new(file: &'a Arc<SourceFile>, n_parts: usize, n_drives: usize) -> Elab<'a> {
+        Elab {
+            file,
+            errors: Vec::new(),
+            part_names: HashMap::new(),
+            c: Circuit {
+                file: file.clone(),
+                design: None,
+                revision: None,
+                nets: Vec::with_capacity(n_parts + 16),
+                net_by_name: HashMap::with_capacity(n_parts + 16),
+                parts: Vec::with_capacity(n_parts),
+                part_by_ref: HashMap::with_capacity(n_parts),
+                drives: Vec::with_capacity(n_drives),
+                ambient: None,
+                suppressions: Vec::new(),
+                duplicates: Vec::new(),
+                library_lines: Vec::new(),
+                drive_index: HashMap::with_capacity(n_drives),
+                complement: HashMap::new(),
+                fixed_nets: Vec::new(),
+            },
+        }
+    }
     fn intern(&mut self, name: String) -> Arc<str> {
         if let Some(a) = self.part_names.get(&name) {
             return a.clone();
@@ -960,11 +989,6 @@ fn elaborate_limited(
     libs: &[Arc<Library>],
     max_parts: usize,
 ) -> (Circuit, Vec<Finding>) {
-    // Size the big tables up front. Growing a vector of a million entries
-    // by doubling copies it into fresh memory again and again, and fresh
-    // memory is the dearest thing a large board costs; reserved but
-    // untouched capacity costs nothing. A board has about one net per
-    // part.
     let (mut n_parts, mut n_drives) = (0usize, 0usize);
     for st in &netlist.statements {
         match st.kind {
@@ -973,142 +997,181 @@ fn elaborate_limited(
             _ => {}
         }
     }
-    let over_limit = (n_parts > max_parts).then(|| {
-        netlist
+    if n_parts > max_parts {
+        let span = netlist
             .statements
             .iter()
             .filter(|st| matches!(st.kind, StatementKind::Part(_)))
             .nth(max_parts)
-            .map_or(Span::default(), |st| st.span)
-    });
-    let (n_parts, n_drives) = if over_limit.is_some() {
-        (0, 0)
-    } else {
-        (n_parts, n_drives)
-    };
-    let mut e = Elab {
-        file,
-        errors: Vec::new(),
-        part_names: HashMap::new(),
-        c: Circuit {
-            file: file.clone(),
-            design: None,
-            revision: None,
-            nets: Vec::with_capacity(n_parts + 16),
-            net_by_name: HashMap::with_capacity(n_parts + 16),
-            parts: Vec::with_capacity(n_parts),
-            part_by_ref: HashMap::with_capacity(n_parts),
-            drives: Vec::with_capacity(n_drives),
-            ambient: None,
-            suppressions: netlist.suppressions.clone(),
-            duplicates: Vec::new(),
-            library_lines: library_lines(netlist),
-            drive_index: HashMap::with_capacity(n_drives),
-            complement: HashMap::new(),
-            fixed_nets: Vec::new(),
-        },
-    };
-    if let Some(span) = over_limit {
-        e.err(
-            "limit-exceeded",
-            span,
-            format!(
-                "the netlist has more than {} parts, the limit",
-                group_digits(max_parts)
-            ),
-            "first part over the limit",
-            Some("split the design into several netlists (one per board or sub-assembly)".into()),
-        );
-        return (e.c, e.errors);
+            .map_or(Span::default(), |st| st.span);
+        return over_limit(file, span, max_parts);
     }
-    // Rails and grounds first, so that their kind is known to every part.
-    for st in &netlist.statements {
-        match &st.kind {
-            StatementKind::Rail(r) => e.rail(&r.name, Some(&r.nominal), &r.opts),
-            StatementKind::Ground(name) => e.rail(name, None, &[]),
-            _ => {}
+    let mut el = Elaborator::new(file, libs, n_parts, n_drives);
+    el.header(&netlist.statements);
+    el.body(&netlist.statements);
+    el.suppressions(netlist.suppressions.clone());
+    el.finish()
+}
+
+/// The one error of a netlist with too many parts; nothing is elaborated.
+pub fn over_limit(file: &Arc<SourceFile>, span: Span, max_parts: usize) -> (Circuit, Vec<Finding>) {
+    let mut e = Elab::new(file, 0, 0);
+    e.err(
+        "limit-exceeded",
+        span,
+        format!(
+            "the netlist has more than {} parts, the limit",
+            group_digits(max_parts)
+        ),
+        "first part over the limit",
+        Some("split the design into several netlists (one per board or sub-assembly)".into()),
+    );
+    (e.c, e.errors)
+}
+
+/// Elaboration fed a piece at a time: the header statements (rails,
+/// grounds, libraries) first, then the body in any number of blocks, in
+/// file order. `elaborate` feeds a whole syntax tree; `armature::build`
+/// feeds blocks of lines as they are parsed, so that the syntax tree of a
+/// large board never exists whole.
+pub struct Elaborator<'a> {
+    e: Elab<'a>,
+    libs: &'a [Arc<Library>],
+    /// Drive statements wait for every part to be known.
+    drives: Vec<ast::DriveStmt<'a>>,
+    drive_at: Vec<(Span, usize)>,
+    design_seen: bool,
+}
+
+impl<'a> Elaborator<'a> {
+    /// `parts` and `drives` are size hints (exact or upper bounds).
+    pub fn new(
+        file: &'a Arc<SourceFile>,
+        libs: &'a [Arc<Library>],
+        parts: usize,
+        drives: usize,
+    ) -> Elaborator<'a> {
+        Elaborator {
+            e: Elab::new(file, parts, drives),
+            libs,
+            drives: Vec::with_capacity(drives),
+            drive_at: Vec::with_capacity(drives),
+            design_seen: false,
         }
     }
-    let mut drives = Vec::with_capacity(n_drives);
-    let mut design_seen = false;
-    // Part lines are drafted in parallel a block at a time (the drafts of
-    // a block are small next to the circuit), then committed in order.
-    use rayon::prelude::*;
-    type Drafted = Option<(Option<(Part, Option<String>)>, Vec<Finding>)>;
-    const BLOCK: usize = 16 * 1024;
-    for block in netlist.statements.chunks(BLOCK) {
-        let drafts: Vec<Drafted> = block
-            .par_iter()
-            .with_min_len(256)
-            .map(|st| match &st.kind {
-                StatementKind::Part(p) => {
-                    let mut d = Drafter {
-                        file,
-                        libs,
-                        errors: Vec::new(),
-                    };
-                    let r = d.draft(p, st.span, st.line);
-                    Some((r, d.errors))
-                }
-                _ => None,
-            })
-            .collect();
-        for (st, drafted) in block.iter().zip(drafts) {
+
+    /// Rails, grounds and `library` lines (other statements are ignored).
+    pub fn header(&mut self, statements: &[ast::Statement<'_>]) {
+        for st in statements {
             match &st.kind {
-                StatementKind::Design { name, rev } => {
-                    if design_seen {
-                        e.err(
-                            "parse-error",
-                            st.span,
-                            "`design` may appear only once".into(),
-                            "second `design`",
-                            None,
-                        );
-                    }
-                    design_seen = true;
-                    e.c.design = Some(name.node.to_string());
-                    e.c.revision = rev.as_ref().map(|r| r.node.to_string());
+                StatementKind::Rail(r) => self.e.rail(&r.name, Some(&r.nominal), &r.opts),
+                StatementKind::Ground(name) => self.e.rail(name, None, &[]),
+                StatementKind::Library(p) => {
+                    self.e.c.library_lines.push((p.node.to_string(), p.span))
                 }
-                StatementKind::Ambient(v) => {
-                    if let Some(t) = e.quantity(v, Dimension::Temperature, "ambient") {
-                        e.c.ambient = Some((t, v.span));
-                    }
-                }
-                StatementKind::Part(p) => {
-                    if let Some((draft, mut errors)) = drafted {
-                        e.errors.append(&mut errors);
-                        if let Some((part, name)) = draft {
-                            e.commit(p, part, name);
-                        }
-                    }
-                }
-                StatementKind::Drive(d) => drives.push((&d.pin, &d.mode, st.span, st.line)),
                 _ => {}
             }
         }
     }
-    for (pin, mode, span, line) in drives {
-        let _ = e.drive(pin, mode, span, line);
-    }
-    let mut c = e.c;
-    for (i, d) in c.drives.iter().enumerate() {
-        c.drive_index.insert((d.part, d.pin.clone()), i);
-        if let DriveKind::Pwm {
-            complement: Some(other),
-            ..
-        } = &d.kind
-        {
-            c.complement.insert((d.part, d.pin.clone()), other.clone());
-            c.complement.insert(other.clone(), (d.part, d.pin.clone()));
+
+    /// Parts, drives, `design` and `ambient` (rails, grounds and
+    /// libraries are ignored: they went to `header`).
+    pub fn body(&mut self, statements: &[ast::Statement<'a>]) {
+        // Part lines are drafted in parallel a block at a time (the
+        // drafts of a block are small next to the circuit), then
+        // committed in order.
+        use rayon::prelude::*;
+        type Drafted = Option<(Option<(Part, Option<String>)>, Vec<Finding>)>;
+        const BLOCK: usize = 16 * 1024;
+        let (file, libs) = (self.e.file, self.libs);
+        for block in statements.chunks(BLOCK) {
+            let drafts: Vec<Drafted> = block
+                .par_iter()
+                .with_min_len(256)
+                .map(|st| match &st.kind {
+                    StatementKind::Part(p) => {
+                        let mut d = Drafter {
+                            file,
+                            libs,
+                            errors: Vec::new(),
+                        };
+                        let r = d.draft(p, st.span, st.line);
+                        Some((r, d.errors))
+                    }
+                    _ => None,
+                })
+                .collect();
+            for (st, drafted) in block.iter().zip(drafts) {
+                let e = &mut self.e;
+                match &st.kind {
+                    StatementKind::Design { name, rev } => {
+                        if self.design_seen {
+                            e.err(
+                                "parse-error",
+                                st.span,
+                                "`design` may appear only once".into(),
+                                "second `design`",
+                                None,
+                            );
+                        }
+                        self.design_seen = true;
+                        e.c.design = Some(name.node.to_string());
+                        e.c.revision = rev.as_ref().map(|r| r.node.to_string());
+                    }
+                    StatementKind::Ambient(v) => {
+                        if let Some(t) = e.quantity(v, Dimension::Temperature, "ambient") {
+                            e.c.ambient = Some((t, v.span));
+                        }
+                    }
+                    StatementKind::Part(p) => {
+                        if let Some((draft, mut errors)) = drafted {
+                            e.errors.append(&mut errors);
+                            if let Some((part, name)) = draft {
+                                e.commit(p, part, name);
+                            }
+                        }
+                    }
+                    StatementKind::Drive(d) => {
+                        self.drives.push((**d).clone());
+                        self.drive_at.push((st.span, st.line));
+                    }
+                    _ => {}
+                }
+            }
         }
     }
-    c.fixed_nets = c
-        .nets
-        .iter()
-        .enumerate()
-        .filter_map(|(i, n)| n.fixed_max().map(|v| (i, v)))
-        .collect();
-    (c, e.errors)
+
+    /// Suppression comments, from any block.
+    pub fn suppressions(&mut self, mut s: Vec<ast::Suppression>) {
+        self.e.c.suppressions.append(&mut s);
+    }
+
+    pub fn finish(self) -> (Circuit, Vec<Finding>) {
+        let mut e = self.e;
+        for (d, (span, line)) in self.drives.iter().zip(self.drive_at) {
+            let _ = e.drive(&d.pin, &d.mode, span, line);
+        }
+        let mut c = e.c;
+        c.suppressions.sort_by_key(|s| (s.line, s.span.start()));
+        for (i, d) in c.drives.iter().enumerate() {
+            c.drive_index.insert((d.part, d.pin.clone()), i);
+            if let DriveKind::Pwm {
+                complement: Some(other),
+                ..
+            } = &d.kind
+            {
+                c.complement.insert((d.part, d.pin.clone()), other.clone());
+                c.complement.insert(other.clone(), (d.part, d.pin.clone()));
+            }
+        }
+        c.fixed_nets = c
+            .nets
+            .iter()
+            .enumerate()
+            .filter_map(|(i, n)| n.fixed_max().map(|v| (i, v)))
+            .collect();
+        (c, e.errors)
+    }
 }
 
 #[cfg(test)]

@@ -127,18 +127,81 @@ fn join_continuations(text: &str) -> std::borrow::Cow<'_, str> {
 /// Parse a whole file. Returns the AST of every line that parsed and the
 /// errors of those that did not. The AST borrows the file's text.
 pub fn parse(file: &Arc<SourceFile>) -> (Netlist<'_>, Vec<Finding>) {
-    use rayon::prelude::*;
-    let joined = join_continuations(&file.text);
-    let text: &str = &joined;
-    let mut lines: Vec<(usize, &str)> = Vec::with_capacity(file.line_count());
-    let mut offset = 0usize;
-    for raw in text.split('\n') {
-        let base = offset;
-        offset += raw.len() + 1;
-        if !raw.trim().is_empty() {
-            lines.push((base, raw));
+    let lines = Lines::new(file);
+    parse_lines(file, lines.all())
+}
+
+/// The logical lines of a file (continuations joined, blank lines left
+/// out), for callers that parse a file a part at a time.
+pub struct Lines<'f> {
+    joined: std::borrow::Cow<'f, str>,
+    /// (byte offset, length) of each non-blank logical line.
+    spans: Vec<(usize, usize)>,
+}
+
+/// What a logical line starts with, read from its first word only (the
+/// grammar decides the rest).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum LineClass {
+    /// `rail`, `ground` or `library`: needed before any part.
+    Header,
+    /// `drive`.
+    Drive,
+    /// Anything else: parts, `design`, `ambient`, comments.
+    Body,
+}
+
+impl<'f> Lines<'f> {
+    pub fn new(file: &'f SourceFile) -> Lines<'f> {
+        let joined = join_continuations(&file.text);
+        let mut spans = Vec::with_capacity(file.line_count());
+        let mut offset = 0usize;
+        for raw in joined.split('\n') {
+            if !raw.trim().is_empty() {
+                spans.push((offset, raw.len()));
+            }
+            offset += raw.len() + 1;
+        }
+        Lines { joined, spans }
+    }
+
+    pub fn len(&self) -> usize {
+        self.spans.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.spans.is_empty()
+    }
+
+    /// Every line, as (offset, text).
+    pub fn all(&self) -> Vec<(usize, &str)> {
+        self.spans
+            .iter()
+            .map(|&(o, n)| (o, self.joined.get(o..o + n).unwrap_or("")))
+            .collect()
+    }
+
+    /// The class of a line's text: its first word, with the grammar's
+    /// word boundary (`railing` is a part kind, not `rail`).
+    pub fn class(text: &str) -> LineClass {
+        let t = text.trim_start_matches([' ', '\t', '\r', '\u{FEFF}']);
+        let word_end = t
+            .find(|c: char| !(c.is_ascii_alphanumeric() || "_-+/".contains(c)))
+            .unwrap_or(t.len());
+        match t.get(..word_end) {
+            Some("rail" | "ground" | "library") => LineClass::Header,
+            Some("drive") => LineClass::Drive,
+            _ => LineClass::Body,
         }
     }
+}
+
+/// Parse the given logical lines (offset, text) of a file.
+pub fn parse_lines<'a>(
+    file: &'a Arc<SourceFile>,
+    lines: Vec<(usize, &str)>,
+) -> (Netlist<'a>, Vec<Finding>) {
+    use rayon::prelude::*;
     // Lines parse independently, in parallel. Each line gives at most one
     // statement, collected by index straight into its place (then
     // compacted in place); the rare suppression comments and errors go to
