@@ -104,25 +104,6 @@ impl Facts {
         }
     }
 
-    pub fn set(
-        &mut self,
-        part: usize,
-        name: &'static str,
-        value: f64,
-        dim: Dimension,
-        note: Option<String>,
-    ) {
-        if let Some(pf) = self.parts.get_mut(part) {
-            pf.set(name, value, dim, note);
-        }
-    }
-
-    pub fn missing(&mut self, part: usize, name: &'static str, reason: impl Into<String>) {
-        if let Some(pf) = self.parts.get_mut(part) {
-            pf.missing(name, reason);
-        }
-    }
-
     pub fn get(&self, part: usize, name: &str) -> Option<&Fact> {
         self.parts.get(part)?.get(name)
     }
@@ -163,8 +144,14 @@ pub struct LocalFacts {
     parts: crate::fasthash::FastMap<usize, PartFacts>,
 }
 
-impl LocalFacts {
-    pub fn set(
+/// Where the analysis writes a part's facts: the circuit's dense table
+/// (`Facts`) or one group's sparse one (`LocalFacts`).
+pub trait FactTable {
+    /// The part's facts, created on first use (`None`: no such part).
+    fn slot(&mut self, part: usize) -> Option<&mut PartFacts>;
+    fn peek(&self, part: usize) -> Option<&PartFacts>;
+
+    fn set(
         &mut self,
         part: usize,
         name: &'static str,
@@ -172,18 +159,37 @@ impl LocalFacts {
         dim: Dimension,
         note: Option<String>,
     ) {
-        self.parts
-            .entry(part)
-            .or_default()
-            .set(name, value, dim, note);
+        if let Some(pf) = self.slot(part) {
+            pf.set(name, value, dim, note);
+        }
     }
 
-    pub fn missing(&mut self, part: usize, name: &'static str, reason: impl Into<String>) {
-        self.parts.entry(part).or_default().missing(name, reason);
+    fn missing(&mut self, part: usize, name: &'static str, reason: impl Into<String>) {
+        if let Some(pf) = self.slot(part) {
+            pf.missing(name, reason);
+        }
     }
 
-    pub fn value(&self, part: usize, name: &str) -> Option<f64> {
-        self.parts.get(&part)?.get(name).map(|f| f.value)
+    fn value(&self, part: usize, name: &str) -> Option<f64> {
+        self.peek(part)?.get(name).map(|f| f.value)
+    }
+}
+
+impl FactTable for Facts {
+    fn slot(&mut self, part: usize) -> Option<&mut PartFacts> {
+        self.parts.get_mut(part)
+    }
+    fn peek(&self, part: usize) -> Option<&PartFacts> {
+        self.parts.get(part)
+    }
+}
+
+impl FactTable for LocalFacts {
+    fn slot(&mut self, part: usize) -> Option<&mut PartFacts> {
+        Some(self.parts.entry(part).or_default())
+    }
+    fn peek(&self, part: usize) -> Option<&PartFacts> {
+        self.parts.get(&part)
     }
 }
 

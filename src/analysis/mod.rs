@@ -9,7 +9,7 @@ pub mod solve;
 pub mod spice;
 pub mod states;
 
-pub use facts::{Fact, Facts};
+pub use facts::{Fact, FactTable, Facts};
 
 use crate::fasthash::FastMap as HashMap;
 use crate::finding::Finding;
