@@ -128,9 +128,8 @@ pub fn build(
     // blocks, each parsed and elaborated and then dropped, so that the
     // syntax tree of a large board never exists whole.
     let lines = syntax::Lines::new(file);
-    let all = lines.all();
     let (mut header_lines, mut body_lines, mut n_drives) = (Vec::new(), Vec::new(), 0usize);
-    for &(base, text) in &all {
+    for (base, text) in lines.iter() {
         match syntax::Lines::class(text) {
             syntax::LineClass::Header => header_lines.push((base, text)),
             syntax::LineClass::Drive => {
@@ -140,7 +139,6 @@ pub fn build(
             syntax::LineClass::Body => body_lines.push((base, text)),
         }
     }
-    drop(all);
     let (header, mut header_errors) = syntax::parse_lines(file, header_lines);
     let mut errors = Vec::new();
     let libs = load_libraries(file, &header, opts, cache, &mut errors);

@@ -1014,7 +1014,7 @@ fn elaborate_limited(
 }
 
 /// The one error of a netlist with too many parts; nothing is elaborated.
-pub fn over_limit(file: &Arc<SourceFile>, span: Span, max_parts: usize) -> (Circuit, Vec<Finding>) {
+fn over_limit(file: &Arc<SourceFile>, span: Span, max_parts: usize) -> (Circuit, Vec<Finding>) {
     let mut e = Elab::new(file, 0, 0);
     e.err(
         "limit-exceeded",

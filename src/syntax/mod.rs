@@ -128,7 +128,7 @@ fn join_continuations(text: &str) -> std::borrow::Cow<'_, str> {
 /// errors of those that did not. The AST borrows the file's text.
 pub fn parse(file: &Arc<SourceFile>) -> (Netlist<'_>, Vec<Finding>) {
     let lines = Lines::new(file);
-    parse_lines(file, lines.all())
+    parse_lines(file, lines.iter().collect())
 }
 
 /// The logical lines of a file (continuations joined, blank lines left
@@ -165,20 +165,11 @@ impl<'f> Lines<'f> {
         Lines { joined, spans }
     }
 
-    pub fn len(&self) -> usize {
-        self.spans.len()
-    }
-
-    pub fn is_empty(&self) -> bool {
-        self.spans.is_empty()
-    }
-
     /// Every line, as (offset, text).
-    pub fn all(&self) -> Vec<(usize, &str)> {
+    pub fn iter(&self) -> impl Iterator<Item = (usize, &str)> {
         self.spans
             .iter()
             .map(|&(o, n)| (o, self.joined.get(o..o + n).unwrap_or("")))
-            .collect()
     }
 
     /// The class of a line's text: its first word, with the grammar's
