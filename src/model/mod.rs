@@ -235,9 +235,11 @@ pub struct Circuit {
     /// `library` lines: (path text, span)
     pub library_lines: Vec<(String, Span)>,
     /// (controller part, pin) → index into `drives`.
-    pub drive_index: HashMap<(PartId, String), usize>,
-    /// A `complement` pin's partner, both ways.
-    pub complement: HashMap<(PartId, String), (PartId, String)>,
+    /// (controller part, index of the pin in its `pins`) → index into
+    /// `drives`. Keyed by index so that a lookup allocates nothing.
+    pub drive_index: HashMap<(PartId, usize), usize>,
+    /// A `complement` pin's partner, both ways (keyed as `drive_index`).
+    pub complement: HashMap<(PartId, usize), (PartId, String)>,
     /// Rails and grounds with their worst-case (maximum) potential.
     pub fixed_nets: Vec<(NetId, f64)>,
 }
@@ -259,14 +261,25 @@ impl Circuit {
     }
     /// The drive statement of a controller pin.
     pub fn drive_of(&self, part: PartId, pin: &str) -> Option<&Drive> {
+        let k = self.pin_index(part, pin)?;
         self.drive_index
-            .get(&(part, pin.to_string()))
+            .get(&(part, k))
             .and_then(|&i| self.drives.get(i))
     }
 
     /// The pin declared as the complement of this one (either way).
     pub fn complement_of(&self, part: PartId, pin: &str) -> Option<&(PartId, String)> {
-        self.complement.get(&(part, pin.to_string()))
+        let k = self.pin_index(part, pin)?;
+        self.complement.get(&(part, k))
+    }
+
+    /// Where a named pin sits in its part's `pins`.
+    pub fn pin_index(&self, part: PartId, pin: &str) -> Option<usize> {
+        self.parts
+            .get(part)?
+            .pins
+            .iter()
+            .position(|p| p.name == pin)
     }
 }
 
@@ -1154,14 +1167,19 @@ impl<'a> Elaborator<'a> {
         let mut c = e.c;
         c.suppressions.sort_by_key(|s| (s.line, s.span.start()));
         for (i, d) in c.drives.iter().enumerate() {
-            c.drive_index.insert((d.part, d.pin.clone()), i);
+            // drives name pins that elaboration checked exist
+            let Some(k) = c.pin_index(d.part, &d.pin) else {
+                continue;
+            };
+            c.drive_index.insert((d.part, k), i);
             if let DriveKind::Pwm {
                 complement: Some(other),
                 ..
             } = &d.kind
+                && let Some(ko) = c.pin_index(other.0, &other.1)
             {
-                c.complement.insert((d.part, d.pin.clone()), other.clone());
-                c.complement.insert(other.clone(), (d.part, d.pin.clone()));
+                c.complement.insert((d.part, k), other.clone());
+                c.complement.insert((other.0, ko), (d.part, d.pin.clone()));
             }
         }
         c.fixed_nets = c
