@@ -83,7 +83,7 @@ fn load_libraries(
         .parent()
         .map(Path::to_path_buf)
         .unwrap_or_default();
-    for (text, span) in model::library_lines(header) {
+    for (text, span) in model::library_lines(&header.statements) {
         let path = base.join(&text);
         let shown = shown_path(&path);
         match cache.load(&path, &shown) {

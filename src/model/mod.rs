@@ -285,8 +285,8 @@ impl Circuit {
 
 /// The `library` lines of a netlist, before elaboration (so that the
 /// caller can load them).
-pub fn library_lines(ast: &ast::Netlist) -> Vec<(String, Span)> {
-    ast.statements
+pub fn library_lines(statements: &[ast::Statement<'_>]) -> Vec<(String, Span)> {
+    statements
         .iter()
         .filter_map(|s| match &s.kind {
             StatementKind::Library(p) => Some((p.node.to_string(), p.span)),
@@ -1075,13 +1075,11 @@ impl<'a> Elaborator<'a> {
 
     /// Rails, grounds and `library` lines (other statements are ignored).
     pub fn header(&mut self, statements: &[ast::Statement<'_>]) {
+        self.e.c.library_lines.extend(library_lines(statements));
         for st in statements {
             match &st.kind {
                 StatementKind::Rail(r) => self.e.rail(&r.name, Some(&r.nominal), &r.opts),
                 StatementKind::Ground(name) => self.e.rail(name, None, &[]),
-                StatementKind::Library(p) => {
-                    self.e.c.library_lines.push((p.node.to_string(), p.span))
-                }
                 _ => {}
             }
         }
