@@ -2,11 +2,18 @@
 //! at turn-off, PWM, losses and junction temperature, bridge legs. It
 //! produces the `Facts` table that built-in checks and team rules read.
 
+pub mod devices;
 pub mod facts;
 pub mod freewheel;
+pub mod groups;
+pub mod mna;
+pub mod netlist;
+pub mod newton;
+pub mod op;
 pub mod physics;
 pub mod solve;
 pub mod spice;
+pub mod spice_v1;
 pub mod states;
 
 pub use facts::{Fact, FactTable, Facts};

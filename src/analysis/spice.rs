@@ -1,31 +1,30 @@
-//! `armature export spice`: an ngspice testbench around one switch — its
-//! load (winding resistance and inductance), the freewheel and clamp
-//! parts of its power island, the rails at their maximum, and a control
-//! source that holds the switch on until the load current has settled and
-//! then opens it. `.meas` lines report the on-state current and the peak
-//! blocking voltage, so a verdict can be confirmed in a simulator.
+//! `export spice`: the engine's netlist of a group as an ngspice deck —
+//! the same device models with the same parameters (MOS level 1
+//! `VTO`/`KP`, diode `IS`/`N`/`RS`/`BV`/`TT`, BJT `IS`/`BF`/`BR`), the gate
+//! network, the rails at the chosen corner, the controller pins as
+//! Thevenin sources (constant for an operating point, `PWL` for an edge).
+//! `* expected:` comments state the engine's values, named and signed as
+//! ngspice prints them, so a test (or a person) can compare.
 
-use super::{Analysis, TurnOff, states};
-use crate::graph::CircuitGraph;
-use crate::model::{Circuit, Kind, NetKind, PartId};
-use std::collections::HashSet;
+use super::devices::sources::DRIVER_IN_WIDTH;
+use super::netlist::{Corner, Dev, Nd, Netlist, Role};
+use super::newton::GSHUNT;
+use crate::model::{Circuit, NetKind};
 use std::fmt::Write;
 
-/// Thermal voltage at 27 °C, the simulator's default temperature (V).
-const VT: f64 = 0.025_852;
-
-fn node(c: &Circuit, net: usize) -> String {
-    match c.net(net).kind {
-        NetKind::Ground => "0".to_string(),
-        _ => format!("n_{}", sanitize(&c.net(net).name)),
-    }
+/// Node names of a deck.
+pub struct Names<'a> {
+    c: &'a Circuit,
+    nl: &'a Netlist,
+    nets: &'a [usize],
+    parts: &'a [usize],
 }
 
-fn sanitize(s: &str) -> String {
+pub fn sanitize(s: &str) -> String {
     s.chars()
         .map(|c| {
             if c.is_ascii_alphanumeric() || c == '_' {
-                c
+                c.to_ascii_lowercase()
             } else {
                 '_'
             }
@@ -33,243 +32,213 @@ fn sanitize(s: &str) -> String {
         .collect()
 }
 
-/// Saturation current that gives forward voltage `vf` at current `i`.
-fn is_for(vf: f64, i: f64) -> f64 {
-    (i.max(1e-6) * (-vf / VT).exp()).max(1e-300)
-}
-
-/// The turn-off that sets the switch's `v_peak` fact.
-pub fn worst_turnoff(a: &Analysis, sw: PartId) -> Option<&TurnOff> {
-    let target = a.facts.value(sw, "v_peak")?;
-    a.turnoffs.iter().filter(|t| t.switch == sw).min_by(|x, y| {
-        (x.v_peak - target)
-            .abs()
-            .partial_cmp(&(y.v_peak - target).abs())
-            .unwrap_or(std::cmp::Ordering::Equal)
-    })
-}
-
-/// Write the deck, or say why there is none.
-pub fn deck(c: &Circuit, g: &CircuitGraph, a: &Analysis, sw: PartId) -> Result<String, String> {
-    let sp = c.parts.get(sw).ok_or("no such part")?;
-    if !sp.kind.is_switch() {
-        return Err(format!(
-            "`{}` is a {}, not a switch",
-            sp.reference,
-            sp.kind.name()
-        ));
+impl<'a> Names<'a> {
+    pub fn new(
+        c: &'a Circuit,
+        nl: &'a Netlist,
+        nets: &'a [usize],
+        parts: &'a [usize],
+    ) -> Names<'a> {
+        Names { c, nl, nets, parts }
     }
-    let t = worst_turnoff(a, sw)
-        .ok_or_else(|| format!("`{}` switches no inductive load", sp.reference))?;
-    let lp = c.part(t.load);
-    let l = lp
-        .num("l")
-        .ok_or_else(|| format!("`{}` has no inductance `l`", lp.reference))?;
-    let r = lp
-        .num("r")
-        .ok_or_else(|| format!("`{}` has no winding resistance `r`", lp.reference))?
-        * (1.0 - lp.num("r_tol").unwrap_or(0.0));
-    let i0 = t.i0.max(1e-3);
-    // nets of the power island around the load
-    let island = lp
-        .pins
-        .iter()
-        .find_map(|p| g.island_of.get(p.net).copied().flatten())
-        .ok_or("the load sits between two fixed nets")?;
-    let nets: HashSet<usize> = g.islands[island].iter().copied().collect();
-    let in_power = |q: PartId| -> bool {
-        let p = c.part(q);
-        let pins: Vec<usize> = match p.kind.switch_pins() {
-            Some((m, _, r)) => [m, r].iter().filter_map(|x| p.net_of(x)).collect(),
-            None => p.pins.iter().map(|x| x.net).collect(),
-        };
-        !pins.is_empty()
-            && pins
-                .iter()
-                .all(|x| nets.contains(x) || c.net(*x).is_fixed())
-            && pins.iter().any(|x| nets.contains(x))
-    };
-    let tau = l / r.max(1e-3);
-    let t_off = (8.0 * tau).max(1e-6);
-    // with no path, the current rings into the switch's capacitance: a
-    // quarter period of `2π·sqrt(L·C)` to the peak
-    let coss = sp.num("coss").unwrap_or(super::freewheel::DEFAULT_COSS);
-    let ring = std::f64::consts::PI * (l * coss).sqrt();
-    let decay = t.path.as_ref().map(|p| p.t_decay).unwrap_or(ring).min(1.0);
-    let t_end = t_off + 3.0 * decay.max(2e-6);
-    let mut s = String::new();
-    let _ = writeln!(
-        s,
-        "* armature testbench: turn-off of {} under {}",
-        sp.reference, lp.reference
-    );
-    let _ = writeln!(
-        s,
-        "* file {} — rails at their maximum, load at stall (no back-EMF)",
-        c.file.name
-    );
-    let _ = writeln!(
-        s,
-        "* expected: i_on {:.6e} A, v_peak {:.6e} V",
-        i0, t.v_peak
-    );
-    // rails
-    for (i, n) in c.nets.iter().enumerate() {
-        if let NetKind::Rail(rv) = n.kind {
-            let _ = writeln!(s, "V_{} {} 0 DC {}", sanitize(&n.name), node(c, i), rv.max);
+
+    pub fn node(&self, n: Nd) -> String {
+        match n {
+            Nd::Var(i) => match self.nets.get(i as usize) {
+                Some(&net) => format!("n_{}", sanitize(&self.c.net(net).name)),
+                None => format!("x{i}"),
+            },
+            Nd::Fix(i) => match self.nl.fixed.get(i as usize) {
+                Some(f) if f.net < self.c.nets.len() => match self.c.net(f.net).kind {
+                    NetKind::Ground => "0".to_string(),
+                    _ => format!("r_{}", sanitize(&self.c.net(f.net).name)),
+                },
+                _ => "0".to_string(),
+            },
         }
     }
-    // the load
-    let (np, nm) = (
-        lp.net_of("+").ok_or("load pin +")?,
-        lp.net_of("-").ok_or("load pin -")?,
-    );
-    let _ = writeln!(
-        s,
-        "R_{} {} x_{} {}",
-        sanitize(&lp.reference),
-        node(c, np),
-        sanitize(&lp.reference),
-        r
-    );
-    let _ = writeln!(
-        s,
-        "L_{} x_{} {} {}",
-        sanitize(&lp.reference),
-        sanitize(&lp.reference),
-        node(c, nm),
-        l
-    );
+
+    /// An element's name: its part's designator, a role suffix, its index.
+    pub fn elem(&self, k: usize) -> String {
+        let e = &self.nl.elems[k];
+        let r = self
+            .parts
+            .get(e.part as usize)
+            .map(|&p| sanitize(&self.c.part(p).reference))
+            .unwrap_or_default();
+        let role = match e.role {
+            Role::Main => String::new(),
+            Role::SeriesR => "_rs".into(),
+            Role::Body => "_body".into(),
+            Role::Avalanche => "_av".into(),
+            Role::Cgs => "_cgs".into(),
+            Role::Cgd => "_cgd".into(),
+            Role::Cds => "_cds".into(),
+            Role::Out(i) => format!("_o{i}"),
+        };
+        format!("{r}{role}_{k}")
+    }
+}
+
+/// How the pins are driven in a deck.
+pub enum PinDrive<'a> {
+    /// A constant level per group pin (`None`: high-impedance).
+    Dc(&'a [Option<f64>]),
+    /// A piecewise-linear level per group pin: (time, level) points
+    /// (`None`: high-impedance throughout).
+    Pwl(&'a [Option<Vec<(f64, f64)>>]),
+}
+
+/// Write the elements of a netlist. Loads get a zero-volt (stall) or EMF
+/// source in series whose current is the load current; each MOSFET and
+/// bipolar switch a zero-volt source at its drain or collector.
+pub fn elements(s: &mut String, names: &Names, corner: Corner, pins: &PinDrive, emf: &[f64]) {
+    let nl = names.nl;
     let mut models = String::new();
-    for (q, p) in c.parts.iter().enumerate() {
-        if q == t.load || !in_power(q) {
-            continue;
+    for f in &nl.fixed {
+        if f.net < names.c.nets.len() && matches!(names.c.net(f.net).kind, NetKind::Rail(_)) {
+            let n = format!("r_{}", sanitize(&names.c.net(f.net).name));
+            let _ = writeln!(s, "v{n} {n} 0 DC {:.12e}", f.at(corner));
         }
-        let name = sanitize(&p.reference);
-        let n = |pin: &str| {
-            p.net_of(pin)
-                .map(|x| node(c, x))
-                .unwrap_or_else(|| "0".into())
-        };
-        match p.kind {
-            Kind::Resistor => {
-                if let Some(v) = p.num("value") {
-                    let _ = writeln!(s, "R_{name} {} {} {}", n("1"), n("2"), v.max(1e-6));
-                }
+    }
+    for (k, e) in nl.elems.iter().enumerate() {
+        let name = names.elem(k);
+        let t: Vec<String> = e.t.iter().map(|&n| names.node(n)).collect();
+        match &e.dev {
+            Dev::Res { g } => {
+                let _ = writeln!(s, "R{name} {} {} {:.12e}", t[0], t[1], 1.0 / g);
             }
-            Kind::Capacitor => {
-                if let Some(v) = p.num("value") {
-                    let _ = writeln!(s, "C_{name} {} {} {}", n("1"), n("2"), v);
-                }
+            Dev::Cap { c } => {
+                let _ = writeln!(s, "C{name} {} {} {:.12e}", t[0], t[1], c);
             }
-            Kind::Diode => {
-                let vf = p.num("vf").unwrap_or(states::DIODE_VF);
-                let _ = writeln!(s, "D_{name} {} {} DM_{name}", n("a"), n("k"));
+            Dev::Load { r, l, .. } => {
+                let e_v = emf.get(k).copied().unwrap_or(0.0);
+                let _ = writeln!(s, "R{name} {} {name}_m {:.12e}", t[0], r);
+                if *l > 0.0 {
+                    let _ = writeln!(s, "L{name} {name}_m {name}_e {:.12e}", l);
+                } else {
+                    let _ = writeln!(s, "R{name}_l {name}_m {name}_e 1e-9");
+                }
+                let _ = writeln!(s, "V{name} {name}_e {} DC {:.12e}", t[1], e_v);
+            }
+            Dev::Diode(d) => {
+                let _ = writeln!(s, "D{name} {} {} dm_{name}", t[0], t[1]);
+                let bv =
+                    d.bv.map(|b| format!(" BV={b:.12e} IBV=1e-3"))
+                        .unwrap_or_default();
                 let _ = writeln!(
                     models,
-                    ".model DM_{name} D(IS={:.6e} N=1 RS=0)",
-                    is_for(vf, i0)
+                    ".model dm_{name} D(IS={:.12e} N={:.6} RS=0{bv} TT={:.12e})",
+                    d.is, d.n, d.tt
                 );
             }
-            Kind::Zener | Kind::Tvs => {
-                let vf = p.num("vf").unwrap_or(states::DIODE_VF);
-                let bv = if p.kind == Kind::Zener {
-                    p.num("vz")
+            Dev::Mos(m) => {
+                let (ty, vto) = if m.polarity > 0.0 {
+                    ("NMOS", m.vto)
                 } else {
-                    p.num("v_clamp").or(p.num("vz"))
+                    ("PMOS", -m.vto)
                 };
-                let _ = writeln!(s, "D_{name} {} {} DM_{name}", n("a"), n("k"));
-                match bv {
-                    Some(bv) => {
-                        let _ = writeln!(
-                            models,
-                            ".model DM_{name} D(IS={:.6e} N=1 RS=0 BV={} IBV=1e-3)",
-                            is_for(vf, i0),
-                            bv
-                        );
-                    }
-                    None => {
-                        let _ = writeln!(
-                            models,
-                            ".model DM_{name} D(IS={:.6e} N=1 RS=0)",
-                            is_for(vf, i0)
-                        );
-                    }
+                let _ = writeln!(s, "V{name}_sense {} {name}_d DC 0", t[0]);
+                let _ = writeln!(
+                    s,
+                    "M{name} {name}_d {} {} {} mm_{name} L=1 W=1",
+                    t[1], t[2], t[2]
+                );
+                let _ = writeln!(
+                    models,
+                    ".model mm_{name} {ty}(LEVEL=1 VTO={vto:.12e} KP={:.12e} IS=0 JS=0)",
+                    m.kp
+                );
+            }
+            Dev::Bjt(q) => {
+                let ty = if q.polarity > 0.0 { "NPN" } else { "PNP" };
+                let _ = writeln!(s, "V{name}_sense {} {name}_c DC 0", t[0]);
+                let _ = writeln!(s, "Q{name} {name}_c {} {} qm_{name}", t[1], t[2]);
+                let _ = writeln!(
+                    models,
+                    ".model qm_{name} {ty}(IS={:.12e} BF={:.12e} BR={:.12e})",
+                    q.is, q.bf, q.br
+                );
+            }
+            Dev::Pin { pin, r, .. } => {
+                let src = match pins {
+                    PinDrive::Dc(levels) => levels
+                        .get(*pin as usize)
+                        .copied()
+                        .flatten()
+                        .map(|v| format!("DC {v:.12e}")),
+                    PinDrive::Pwl(w) => w.get(*pin as usize).and_then(|p| p.as_ref()).map(|pts| {
+                        let body: Vec<String> = pts
+                            .iter()
+                            .map(|(t, v)| format!("{t:.12e} {v:.12e}"))
+                            .collect();
+                        format!("PWL({})", body.join(" "))
+                    }),
+                };
+                if let Some(src) = src {
+                    let _ = writeln!(s, "V{name} {name}_s {} {src}", t[1]);
+                    let _ = writeln!(s, "R{name} {name}_s {} {:.12e}", t[0], r);
                 }
             }
-            Kind::Nmos | Kind::Pmos | Kind::Npn | Kind::Pnp => {
-                let (m, _, rr) = p.kind.switch_pins().unwrap_or(("d", "g", "s"));
-                let ron = if p.kind.is_mos() {
-                    states::rds_on(c, q)
+            Dev::Drv { vth, r, invert } => {
+                let tanh = format!(
+                    "tanh((v({})-v({})-{vth:.12e})/{DRIVER_IN_WIDTH:.12e})",
+                    t[1], t[3]
+                );
+                let frac = if *invert {
+                    format!("(0.5-0.5*{tanh})")
                 } else {
-                    0.2 / i0
+                    format!("(0.5+0.5*{tanh})")
                 };
-                let on_now = t.others_on.contains(&q);
-                if q == sw {
-                    let _ = writeln!(s, "V_sense_{name} {} y_{name} DC 0", n(m));
-                    let _ = writeln!(s, "S_{name} y_{name} {} ctl 0 SWM", n(rr));
-                    let _ = writeln!(models, ".model SWM SW(VT=0.5 VH=0.1 RON={} ROFF=1e12)", ron);
-                    let _ = writeln!(s, "C_oss_{name} {} {} {}", n(m), n(rr), coss);
-                    let _ = writeln!(
-                        s,
-                        "V_ctl ctl 0 PWL(0 1 {t_off:.9e} 1 {:.9e} 0)",
-                        t_off + 1e-9
-                    );
-                } else if on_now {
-                    let _ = writeln!(s, "R_on_{name} {} {} {}", n(m), n(rr), ron);
-                }
-                if p.kind.is_mos() {
-                    let vf = p.num("body_vf").unwrap_or(states::BODY_VF);
-                    let (an, ka) = if p.kind == Kind::Nmos {
-                        (n("s"), n("d"))
-                    } else {
-                        (n("d"), n("s"))
-                    };
-                    let _ = writeln!(s, "D_body_{name} {an} {ka} DB_{name}");
-                    let _ = writeln!(
-                        models,
-                        ".model DB_{name} D(IS={:.6e} N=1 RS=0)",
-                        is_for(vf, i0)
-                    );
-                }
+                let _ = writeln!(
+                    s,
+                    "B{name} {name}_s 0 V=v({})+(v({})-v({}))*{frac}",
+                    t[3], t[2], t[3]
+                );
+                let _ = writeln!(s, "R{name} {name}_s {} {:.12e}", t[0], r);
             }
-            _ => {}
         }
     }
     s.push_str(&models);
-    let (m, _, rr) = sp.kind.switch_pins().unwrap_or(("d", "g", "s"));
-    let dn = sp
-        .net_of(m)
-        .map(|x| node(c, x))
-        .unwrap_or_else(|| "0".into());
-    let sn = sp
-        .net_of(rr)
-        .map(|x| node(c, x))
-        .unwrap_or_else(|| "0".into());
-    let name = sanitize(&sp.reference);
-    let step = (decay / 2000.0).clamp(1e-10, 1e-6);
-    let _ = writeln!(s, ".options reltol=1e-4");
-    let _ = writeln!(s, ".tran {step:.3e} {t_end:.9e} 0 {step:.3e}");
-    let _ = writeln!(
-        s,
-        ".meas tran i_on FIND i(V_sense_{name}) AT={:.9e}",
-        t_off * 0.999
-    );
-    let sign = if sp.kind.is_p_type() { "-" } else { "" };
-    let vd = |n: &str| {
-        if n == "0" {
-            "0".to_string()
-        } else {
-            format!("v({n})")
-        }
-    };
-    let _ = writeln!(
-        s,
-        ".meas tran v_peak MAX par('{sign}({}-{})') FROM={:.9e} TO={t_end:.9e}",
-        vd(&dn),
-        vd(&sn),
-        t_off
-    );
-    let _ = writeln!(s, ".end");
-    Ok(s)
+    let _ = writeln!(s, ".option rshunt={:.6e}", 1.0 / GSHUNT);
+}
+
+/// The ngspice name of the current a load or switch element reports:
+/// the series source's `i(…)` (positive into its + terminal, as ngspice
+/// prints it).
+pub fn current_probe(names: &Names, k: usize) -> Option<String> {
+    let e = names.nl.elems.get(k)?;
+    let name = names.elem(k);
+    match e.dev {
+        Dev::Load { .. } => Some(format!("i(v{name})")),
+        Dev::Mos(_) | Dev::Bjt(_) => Some(format!("i(v{name}_sense)")),
+        _ => None,
+    }
+}
+
+/// A deck that solves one operating point and prints every node of the
+/// group and the current of every load and switch, with the engine's
+/// values as `* expected:` lines.
+pub fn op_deck(
+    title: &str,
+    names: &Names,
+    corner: Corner,
+    pins: &[Option<f64>],
+    emf: &[f64],
+    expected: &[(String, f64)],
+) -> String {
+    let mut s = String::new();
+    let _ = writeln!(s, "* {title}");
+    let _ = writeln!(s, "* rails at their {}; devices at 27 degC", corner.name());
+    for (k, v) in expected {
+        let _ = writeln!(s, "* expected: {k} = {v:.9e}");
+    }
+    elements(&mut s, names, corner, &PinDrive::Dc(pins), emf);
+    let probes: Vec<&str> = expected.iter().map(|(k, _)| k.as_str()).collect();
+    let _ = writeln!(s, ".control\nop");
+    for chunk in probes.chunks(8) {
+        let _ = writeln!(s, "print {}", chunk.join(" "));
+    }
+    let _ = writeln!(s, ".endc\n.end");
+    s
 }

@@ -581,7 +581,7 @@ fn export_spice(path: &Path, part: Option<&str>, common: &CommonArgs) -> i32 {
             }
         },
     };
-    match crate::analysis::spice::deck(&b.circuit, &b.graph, &b.analysis, sw) {
+    match crate::analysis::spice_v1::deck(&b.circuit, &b.graph, &b.analysis, sw) {
         Ok(d) => {
             print!("{d}");
             0
