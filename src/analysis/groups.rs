@@ -34,6 +34,7 @@ pub fn is_supply_pin(name: &str) -> bool {
         || n == "V-"
 }
 
+#[derive(Default)]
 pub struct Group {
     pub islands: Vec<usize>,
     pub nets: Vec<NetId>,
@@ -116,44 +117,6 @@ pub fn groups(c: &Circuit, g: &CircuitGraph) -> Vec<Group> {
         pins.sort();
         pins.dedup();
         grp.pins = pins;
-    }
-    out
-}
-
-/// Every assignment of a group's pins: all high-impedance (reset), then
-/// every high/low combination allowed by `complement` declarations.
-pub fn assignments(c: &Circuit, pins: &[CtlPin]) -> Vec<Vec<PinState>> {
-    let mut out = vec![vec![PinState::HiZ; pins.len()]];
-    let k = pins.len().min(MAX_GROUP_PINS);
-    // complement constraints: index pairs
-    let mut pairs = Vec::new();
-    for (a, p) in pins.iter().enumerate() {
-        if let Some(o) = c.complement_of(p.0, &p.1)
-            && let Some(b) = pins.iter().position(|x| x == o)
-            && a < b
-        {
-            pairs.push((a, b));
-        }
-    }
-    for mask in 0u32..(1u32 << k) {
-        let mut a: Vec<PinState> = (0..pins.len())
-            .map(|i| {
-                if i < k && mask & (1 << i) != 0 {
-                    PinState::High
-                } else {
-                    PinState::Low
-                }
-            })
-            .collect();
-        if pairs.iter().any(|&(x, y)| a[x] == a[y]) {
-            continue;
-        }
-        if pins.len() > k {
-            for s in a.iter_mut().skip(k) {
-                *s = PinState::Low;
-            }
-        }
-        out.push(a);
     }
     out
 }

@@ -1,87 +1,126 @@
-//! Electrical analysis: switching states, nodal DC solves, freewheel paths
-//! at turn-off, PWM, losses and junction temperature, bridge legs. It
-//! produces the `Facts` table that built-in checks and team rules read.
+//! Electrical analysis, version 2: a small circuit simulator inside the
+//! pipeline. Each control group becomes a netlist of device models fitted
+//! from the parts' ratings (`devices/`, `netlist`), is solved in every
+//! controller-pin assignment at both rail corners by Newton–Raphson on its
+//! nodal equations (`mna`, `newton`, `op`), and has the edges of its
+//! switches simulated (`transient`, `edges`); identical groups share one
+//! solution (`reuse`). The readers below turn solutions into the tables
+//! the rules read and into the `Facts` table that rules, team rules and
+//! `armature facts` share. A rule never sees a matrix.
 
 pub mod devices;
+pub mod edges;
 pub mod facts;
-pub mod freewheel;
 pub mod groups;
 pub mod mna;
 pub mod netlist;
 pub mod newton;
 pub mod op;
 pub mod physics;
+pub mod reuse;
 pub mod solve;
 pub mod spice;
-pub mod spice_v1;
-pub mod states;
+pub mod transient;
 
 pub use facts::{Fact, FactTable, Facts};
 
+/// A controller's output level: `io_v`, else its supply rail (nominal).
+pub fn io_v(c: &Circuit, mcu: PartId) -> f64 {
+    devices::sources::io_level(c, c.part(mcu))
+}
+
 use crate::fasthash::FastMap as HashMap;
-use crate::finding::Finding;
+use crate::finding::{Finding, Severity};
 use crate::graph::CircuitGraph;
 use crate::model::{Circuit, DriveKind, Kind, NetId, PartId};
 use crate::settings::Settings;
 use crate::units::Dimension::*;
-use states::{CtlPin, Group, PinState, StateResult};
+use crate::units::format_si;
+pub use groups::{CtlPin, Group, PinState};
+use netlist::{Corner, Dev, Nd, Role};
+use op::Mode;
+pub use solve::{EdgeKind, GroupSolution, Point, Region};
+use std::sync::Arc;
 
-/// What the analysis learnt about a switch's control.
+/// What the analysis learnt about a switch.
 #[derive(Clone, Debug, Default)]
 pub struct SwitchInfo {
     pub group: usize,
-    /// Controller pins that change the switch's state, and whether the
-    /// switch is on when the pin is low (inverting path).
+    /// Controller pins that move it between off and conducting, and
+    /// whether it conducts with the pin low (an inverting path).
     pub controls: Vec<(CtlPin, bool)>,
-    pub on_states: usize,
+    /// Controller pins that change its gate drive (it is meant to switch).
+    pub drivers: Vec<CtlPin>,
     pub hl_states: usize,
-    /// During reset (all pins high-impedance): gate net undefined.
+    /// High/low states in which it conducts (max corner).
+    pub on_states: usize,
+    /// During reset (all pins high-impedance): its control node undefined.
     pub reset_floating: bool,
     pub reset_on: bool,
-    /// Lowest gate drive over the states where the switch is on.
+    /// Lowest gate drive over the states where it conducts (min corner).
     pub v_gs_on: Option<f64>,
-    /// Highest drive over all states (when it is never on).
+    /// Highest drive over every high/low state (min corner).
     pub v_gs_best: Option<f64>,
-    /// Largest |V_GS| over all states.
+    /// Largest |V_GS| over every state (max corner).
     pub v_gs_abs_max: Option<f64>,
+    /// Its point with the most current among those where it is linear
+    /// (min corner, high/low states).
+    pub linear: Option<Point>,
+    /// Some high/low state puts it fully on (min corner).
+    pub ever_on: bool,
     pub f_pwm: f64,
     pub duty_min: f64,
     pub duty_max: f64,
     /// Largest current out of a controller pin that drives it.
     pub pin_current: Option<(CtlPin, f64)>,
+    /// It is a stage of another switch's gate network (its collector or
+    /// emitter, drain or source, reaches another switch's gate or base or
+    /// a driver's input through resistors at most): a level shifter or an
+    /// emitter follower, not a load switch.
+    pub gate_stage: bool,
 }
 
-/// One inductive load and the switches that carry its current.
+/// One load (motor, coil, inductor) and the switches that carry it.
 #[derive(Clone, Debug)]
 pub struct LoadInfo {
     pub part: PartId,
     pub group: usize,
     pub switches: Vec<PartId>,
-    /// Worst-case (stall) current magnitude.
     pub i_stall: f64,
-    pub i_stall_note: String,
     pub i_cont: f64,
-    pub i_cont_note: String,
-    /// Diodes across the load that conduct while the load is driven.
+    /// Diodes on the load's circuit that conduct while it is driven.
     pub reversed: Vec<(PartId, f64)>,
     pub f_pwm: f64,
     pub duty_max: f64,
 }
 
-/// One switch opening under an inductive load.
+/// One simulated turn-off of a switch.
 #[derive(Clone, Debug)]
 pub struct TurnOff {
-    pub load: PartId,
     pub switch: PartId,
+    pub load: Option<PartId>,
+    pub kind: EdgeKind,
+    pub mode: Mode,
+    pub group: usize,
+    /// Index of the edge run in the group's solution.
+    pub edge: usize,
     pub i0: f64,
-    pub path: Option<freewheel::Path>,
+    pub il0: f64,
     pub v_peak: f64,
-    pub v_peak_note: String,
-    pub rail: Option<NetId>,
-    /// Switches forced off with it (a bridge reset), besides `switch`.
-    pub also_off: Vec<PartId>,
-    /// Switches that stay on while it opens.
-    pub others_on: Vec<PartId>,
+    pub t_off: Option<f64>,
+    pub t_decay: Option<f64>,
+    pub e_off: f64,
+    pub e_aval: f64,
+    /// Energy stored in the loads at the command, ½·L·I².
+    pub e_load: f64,
+    /// Parts that carried at least a fifth of the load's charge after the
+    /// command (the freewheel path), with their energy.
+    pub path: Vec<(PartId, f64)>,
+    /// Rails that took back energy, with how much.
+    pub rails: Vec<(NetId, f64)>,
+    /// The switch's own breakdown carried the current.
+    pub avalanche: bool,
+    pub failed: bool,
 }
 
 /// Two switches in series between two fixed nets, sharing a midpoint.
@@ -90,8 +129,19 @@ pub struct Leg {
     pub high: PartId,
     pub low: PartId,
     pub mid: NetId,
-    /// A pin assignment that turns both on: (pins, states).
-    pub both_on: Option<Vec<(CtlPin, PinState)>>,
+    /// A pin assignment that makes current flow through both, and that
+    /// current.
+    pub both_on: Option<(Vec<(CtlPin, PinState)>, f64)>,
+}
+
+/// A gate driver's input that floats while the controller is in reset.
+#[derive(Clone, Debug)]
+pub struct FloatingInput {
+    pub driver: PartId,
+    pub pin: &'static str,
+    /// Switches whose control node the driver's output drives.
+    pub switches: Vec<PartId>,
+    pub controllers: Vec<CtlPin>,
 }
 
 /// Everything the analysis computed for a circuit.
@@ -105,6 +155,8 @@ pub struct Analysis {
     pub turnoffs: Vec<TurnOff>,
     pub legs: Vec<Leg>,
     pub groups: Vec<Group>,
+    /// Each group's solution (shared between identical groups).
+    pub solutions: Vec<Arc<GroupSolution>>,
     /// Worst-case DC voltage of each net over every solved state.
     pub net_vmax: Vec<Option<f64>>,
     pub net_vmin: Vec<Option<f64>>,
@@ -112,9 +164,9 @@ pub struct Analysis {
     pub rail_shorts: Vec<(PartId, String)>,
     /// Groups whose pins exceed the enumeration limit.
     pub truncated: Vec<usize>,
-    /// Smallest on-duty of the PWM switches whose turn-off a diode
-    /// freewheels (its off-time is the rest of the period).
-    pub diode_duty_min: HashMap<PartId, f64>,
+    pub floating_inputs: Vec<FloatingInput>,
+    /// How many distinct groups were solved (the rest reused a solution).
+    pub distinct_groups: usize,
 }
 
 impl std::fmt::Debug for Group {
@@ -128,259 +180,361 @@ impl std::fmt::Debug for Group {
     }
 }
 
-/// The largest rail voltage on a load's pins or its switches' pins.
-fn supply_of(c: &Circuit, load: PartId, switches: &[PartId]) -> f64 {
-    std::iter::once(load)
-        .chain(switches.iter().copied())
-        .flat_map(|q| c.part(q).pins.iter())
-        .filter_map(|p| c.net(p.net).fixed_max())
-        .fold(0.0f64, |a, b| a.max(b.abs()))
+impl std::fmt::Debug for GroupSolution {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(
+            f,
+            "GroupSolution({} nodes, {} states, {} edges)",
+            self.nl.n,
+            self.states.len(),
+            self.edges.len()
+        )
+    }
 }
 
-/// Pins tied to pin `k` by a `complement` declaration.
-fn partners(c: &Circuit, pins: &[CtlPin], k: usize) -> Vec<usize> {
-    let Some(me) = pins.get(k) else {
-        return Vec::new();
-    };
-    c.complement_of(me.0, &me.1)
-        .and_then(|o| pins.iter().position(|p| p == o))
-        .into_iter()
+/// The drive of each group pin.
+fn pin_drives(c: &Circuit, grp: &Group) -> Vec<solve::PinDrive> {
+    grp.pins
+        .iter()
+        .map(|(m, name)| {
+            let own = c.drive_of(*m, name);
+            let partner = c
+                .complement_of(*m, name)
+                .and_then(|o| grp.pins.iter().position(|p| p == o))
+                .map(|i| i as u32);
+            // a complement pin takes its partner's drive, inverted
+            let (d, inverted) = match own {
+                Some(d) => (Some(d), false),
+                None => (
+                    c.complement_of(*m, name).and_then(|o| c.drive_of(o.0, &o.1)),
+                    true,
+                ),
+            };
+            match d.map(|d| &d.kind) {
+                Some(DriveKind::Pwm {
+                    freq,
+                    duty_min,
+                    duty_max,
+                    deadtime,
+                    ..
+                }) => {
+                    let (lo, hi) = if inverted {
+                        (1.0 - duty_max, 1.0 - duty_min)
+                    } else {
+                        (*duty_min, *duty_max)
+                    };
+                    solve::PinDrive {
+                        f_pwm: *freq,
+                        duty_min: lo,
+                        duty_max: hi,
+                        partner,
+                        deadtime: deadtime.unwrap_or(0.0),
+                    }
+                }
+                _ => solve::PinDrive {
+                    f_pwm: 0.0,
+                    duty_min: 1.0,
+                    duty_max: 1.0,
+                    partner,
+                    deadtime: 0.0,
+                },
+            }
+        })
         .collect()
 }
 
-fn drive_of<'a>(c: &'a Circuit, pin: &CtlPin) -> Option<&'a crate::model::Drive> {
-    c.drive_of(pin.0, &pin.1)
+pub fn analyze(c: &Circuit, g: &CircuitGraph, s: &Settings) -> Analysis {
+    analyze_with(c, g, s, true)
 }
 
-pub fn analyze(c: &Circuit, g: &CircuitGraph, s: &Settings) -> Analysis {
+/// The analysis, with or without the reuse of identical groups (the
+/// benchmark measures both).
+pub fn analyze_with(c: &Circuit, g: &CircuitGraph, s: &Settings, reuse: bool) -> Analysis {
+    use rayon::prelude::*;
     let mut a = Analysis {
         facts: Facts::new(c.parts.len()),
         net_vmax: c.nets.iter().map(|n| n.fixed_max()).collect(),
         net_vmin: c.nets.iter().map(|n| n.fixed_min()).collect(),
         ..Analysis::default()
     };
-    let groups = states::groups(c, g);
-    // reserve the big tables once (see `model::elaborate`)
-    let n_switches = c.parts.iter().filter(|p| p.kind.is_switch()).count();
-    let n_loads = c
-        .parts
+    let groups = groups::groups(c, g);
+    // netlists and keys, then one solve per distinct key
+    let prepared: Vec<(netlist::Netlist, Vec<solve::PinDrive>, Vec<solve::Rated>)> = groups
+        .par_iter()
+        .with_min_len(64)
+        .map(|grp| {
+            (
+                netlist::build(c, grp),
+                pin_drives(c, grp),
+                solve::rated(c, &grp.parts),
+            )
+        })
+        .collect();
+    let mut index: HashMap<Vec<u64>, usize> = HashMap::default();
+    let mut which: Vec<usize> = Vec::with_capacity(groups.len());
+    let mut unique: Vec<usize> = Vec::new();
+    for (gi, (nl, d, r)) in prepared.iter().enumerate() {
+        if reuse {
+            let k = reuse::key(nl, d, r);
+            let next = unique.len();
+            let u = *index.entry(k).or_insert(next);
+            if u == next {
+                unique.push(gi);
+            }
+            which.push(u);
+        } else {
+            which.push(unique.len());
+            unique.push(gi);
+        }
+    }
+    let mut prepared: Vec<Option<_>> = prepared.into_iter().map(Some).collect();
+    let jobs: Vec<_> = unique
         .iter()
-        .filter(|p| p.kind.is_inductive_load())
-        .count();
+        .map(|&gi| prepared.get_mut(gi).and_then(Option::take))
+        .collect();
+    let solved: Vec<Arc<GroupSolution>> = jobs
+        .into_par_iter()
+        .map(|job| match job {
+            Some((nl, d, r)) => Arc::new(solve::solve(nl, &d, &r)),
+            None => Arc::new(solve::solve(
+                netlist::build(c, &Group::default()),
+                &[],
+                &[],
+            )),
+        })
+        .collect();
+    a.distinct_groups = solved.len();
+    a.solutions = which.iter().map(|&u| solved[u].clone()).collect();
+    // read every group, in parallel, merged in group order
+    let outs: Vec<GroupAcc> = groups
+        .par_iter()
+        .enumerate()
+        .with_min_len(64)
+        .map(|(gi, grp)| read_group(c, gi, grp, &a.solutions[gi]))
+        .collect();
+    let n_switches = c.parts.iter().filter(|p| p.kind.is_switch()).count();
     a.switches.reserve(n_switches);
-    a.loads.reserve(n_loads);
-    a.turnoffs.reserve(2 * n_switches);
-    // The groups are independent: each is solved in its states and
-    // analysed on its own, on every core, a chunk at a time so that the
-    // solved states of a large board are not all held at once. The
-    // results are merged in group order, so the output does not depend
-    // on the number of threads.
-    use rayon::prelude::*;
-    const CHUNK: usize = 4096;
-    for chunk_start in (0..groups.len()).step_by(CHUNK) {
-        let chunk = &groups[chunk_start..(chunk_start + CHUNK).min(groups.len())];
-        let outs: Vec<GroupAcc> = chunk
-            .par_iter()
-            .enumerate()
-            .with_min_len(64)
-            .map(|(i, grp)| analyse_group(c, s, chunk_start + i, grp))
-            .collect();
-        for (i, acc) in outs.into_iter().enumerate() {
-            let gi = chunk_start + i;
-            for (net, hi, lo) in acc.extremes {
-                if let Some(slot) = a.net_vmax.get_mut(net) {
-                    let mx = slot.get_or_insert(hi);
-                    *mx = mx.max(hi);
-                }
-                if let Some(slot) = a.net_vmin.get_mut(net) {
-                    let mn = slot.get_or_insert(lo);
-                    *mn = mn.min(lo);
-                }
+    for (gi, acc) in outs.into_iter().enumerate() {
+        for (net, hi, lo) in acc.extremes {
+            if let Some(slot) = a.net_vmax.get_mut(net) {
+                let mx = slot.get_or_insert(hi);
+                *mx = mx.max(hi);
             }
-            if acc.truncated {
-                a.truncated.push(gi);
-            }
-            a.facts.merge(acc.facts);
-            let mut sw: Vec<(PartId, SwitchInfo)> = acc.switches.into_iter().collect();
-            sw.sort_unstable_by_key(|(p, _)| *p);
-            a.switches.extend(sw);
-            a.loads.extend(acc.loads);
-            a.turnoffs.extend(acc.turnoffs);
-            a.legs.extend(acc.legs);
-            let mut dm: Vec<(PartId, f64)> = acc.diode_duty_min.into_iter().collect();
-            dm.sort_unstable_by_key(|(p, _)| *p);
-            for (d, m) in dm {
-                let e = a.diode_duty_min.entry(d).or_insert(m);
-                *e = e.min(m);
-            }
-            if let Some(f) = acc.nonconvergent {
-                a.early.push(f);
+            if let Some(slot) = a.net_vmin.get_mut(net) {
+                let mn = slot.get_or_insert(lo);
+                *mn = mn.min(lo);
             }
         }
+        if acc.truncated {
+            a.truncated.push(gi);
+        }
+        a.facts.merge(acc.facts);
+        a.switches.extend(acc.switches);
+        a.loads.extend(acc.loads);
+        a.turnoffs.extend(acc.turnoffs);
+        a.legs.extend(acc.legs);
+        a.floating_inputs.extend(acc.floating_inputs);
+        a.early.extend(acc.notes);
     }
     a.groups = groups;
     rail_shorts(c, &mut a);
     thermal(c, s, &mut a);
-    diode_losses(c, &mut a);
     a
 }
 
-/// What the analysis of one group produced, before it is merged into
-/// the circuit's `Analysis`.
+/// What reading one group produced, before it is merged.
 #[derive(Default)]
 struct GroupAcc {
     facts: facts::LocalFacts,
-    switches: HashMap<PartId, SwitchInfo>,
+    switches: Vec<(PartId, SwitchInfo)>,
     loads: Vec<LoadInfo>,
     turnoffs: Vec<TurnOff>,
     legs: Vec<Leg>,
-    diode_duty_min: HashMap<PartId, f64>,
-    /// (net, highest, lowest) DC voltage over the group's states.
+    floating_inputs: Vec<FloatingInput>,
     extremes: Vec<(NetId, f64, f64)>,
     truncated: bool,
-    nonconvergent: Option<Finding>,
+    notes: Vec<Finding>,
 }
 
-/// Solve a group in every pin assignment and analyse its switches,
-/// loads, legs and diodes.
-fn analyse_group(c: &Circuit, s: &Settings, gi: usize, grp: &Group) -> GroupAcc {
-    let results: Vec<StateResult> = states::assignments(c, &grp.pins)
+/// Describe a pin assignment: "`U1.PA3` high, `U1.PA4` low".
+pub fn describe_state(c: &Circuit, grp: &Group, a: &[PinState]) -> String {
+    if a.iter().all(|s| *s == PinState::HiZ) {
+        return "every pin high-impedance (reset)".to_string();
+    }
+    grp.pins
         .iter()
-        .map(|x| states::solve_state(c, grp, x, None))
-        .collect();
+        .zip(a)
+        .map(|((m, pin), s)| {
+            format!(
+                "`{}.{pin}` {}",
+                c.part(*m).reference,
+                match s {
+                    PinState::High => "high",
+                    PinState::Low => "low",
+                    PinState::HiZ => "open",
+                }
+            )
+        })
+        .collect::<Vec<_>>()
+        .join(", ")
+}
+
+fn read_group(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution) -> GroupAcc {
     let mut a = GroupAcc {
-        truncated: grp.pins.len() > states::MAX_GROUP_PINS,
+        truncated: sol.truncated,
         ..GroupAcc::default()
     };
-    let mut ext: HashMap<NetId, (f64, f64)> = HashMap::default();
-    for r in &results {
-        for (&net, &v) in &r.volts {
-            if r.floating.contains(&net) {
-                continue;
+    
+    // extremes of every net over every solved point
+    let mut ext: Vec<Option<(f64, f64)>> = vec![None; grp.nets.len()];
+    for ops in &sol.ops {
+        for o in ops {
+            for (i, slot) in ext.iter_mut().enumerate() {
+                if o.floating.get(i).copied().unwrap_or(false) {
+                    continue;
+                }
+                let v = o.x.get(i).copied().unwrap_or(0.0);
+                let e = slot.get_or_insert((v, v));
+                e.0 = e.0.max(v);
+                e.1 = e.1.min(v);
             }
-            let e = ext.entry(net).or_insert((v, v));
-            e.0 = e.0.max(v);
-            e.1 = e.1.min(v);
         }
     }
-    a.extremes = ext.into_iter().map(|(n, (hi, lo))| (n, hi, lo)).collect();
-    a.extremes.sort_unstable_by_key(|x| x.0);
-    analyse_switches(c, gi, grp, &results, &mut a);
-    analyse_loads(c, s, gi, grp, &results, &mut a);
-    analyse_legs(c, grp, &results, &mut a);
-    analyse_diodes(c, grp, &results, &mut a);
-    if results.iter().any(|r| !r.converged) {
-        let names: Vec<&str> = grp
-            .nets
-            .iter()
-            .take(3)
-            .map(|&n| c.net(n).name.as_str())
-            .collect();
-        if let Some(&p) = grp.parts.first() {
-            a.nonconvergent = Some(
-                crate::finding::Finding::new(
-                    "analysis-nonconvergent",
-                    crate::finding::Severity::Warning,
-                    &c.file,
-                    c.part(p).span,
-                    format!(
-                        "the switching states around {} did not settle to a consistent state: results for these parts are approximate",
-                        names.iter().map(|n| format!("`{n}`")).collect::<Vec<_>>().join(", ")
-                    ),
-                )
-                .label("oscillating piecewise state")
-                .help("check for a switch that turns itself off (a source follower driving its own gate network)")
-                .parts([c.part(p).reference.clone()]),
-            );
-        }
+    a.extremes = grp
+        .nets
+        .iter()
+        .zip(ext)
+        .filter_map(|(&n, e)| e.map(|(hi, lo)| (n, hi, lo)))
+        .collect();
+    read_switches(c, gi, grp, sol, &mut a);
+    read_loads(c, gi, grp, sol, &mut a);
+    read_edges(c, gi, grp, sol, &mut a);
+    read_legs(c, grp, sol, &mut a);
+    read_diodes(c, grp, sol, &mut a);
+    read_resistors(c, grp, sol, &mut a);
+    read_driver_inputs(c, grp, sol, &mut a);
+    let failed = solve::failures(sol);
+    if let Some(&(s, corner, mode)) = failed.first()
+        && let Some(&p) = grp.parts.first()
+    {
+        let st = sol.states.get(s).map(|x| describe_state(c, grp, x)).unwrap_or_default();
+        a.notes.push(
+            Finding::new(
+                "analysis-nonconvergent",
+                Severity::Warning,
+                &c.file,
+                c.part(p).span,
+                format!(
+                    "the operating point with {st} (rails at their {}, motors {}) did not converge, even with gmin and source stepping: {} of {} points failed, and the results for these parts are incomplete",
+                    corner.name(),
+                    if mode == Mode::Stall { "stalled" } else { "running" },
+                    failed.len(),
+                    sol.ops.len() * 4
+                ),
+            )
+            .label("no operating point")
+            .help("check for a part whose value is far out of range, or a loop of switches that drive each other; `armature export spice` writes the group for a simulator")
+            .parts([c.part(p).reference.clone()]),
+        );
+    }
+    if let Some(e) = sol.edges.iter().find(|e| e.res.failed.is_some())
+        && let Some(&p) = grp.parts.get(e.switch as usize)
+    {
+        a.notes.push(
+            Finding::new(
+                "analysis-nonconvergent",
+                Severity::Warning,
+                &c.file,
+                c.part(p).span,
+                format!(
+                    "the simulated turn-off of `{}` stopped early ({:?}): its edge figures are incomplete",
+                    c.part(p).reference,
+                    e.res.failed
+                ),
+            )
+            .label("edge not completed")
+            .parts([c.part(p).reference.clone()]),
+        );
     }
     a
 }
 
-fn analyse_switches(
-    c: &Circuit,
-    gi: usize,
-    grp: &Group,
-    results: &[StateResult],
-    a: &mut GroupAcc,
-) {
-    for &pid in &grp.parts {
-        let p = c.part(pid);
-        if !p.kind.is_switch() {
+fn point(sw: &solve::LocalSwitch, state: usize, corner: Corner) -> Option<&Point> {
+    sw.points
+        .iter()
+        .find(|p| p.corner == corner && p.state as usize == state)
+}
+
+fn read_switches(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut GroupAcc) {
+    let nl = &sol.nl;
+    for ls in &sol.switches {
+        let Some(&pid) = grp.parts.get(ls.part as usize) else {
             continue;
-        }
+        };
+        let p = c.part(pid);
         let mut info = SwitchInfo {
             group: gi,
+            controls: ls
+                .controls
+                .iter()
+                .filter_map(|&(k, inv)| grp.pins.get(k as usize).map(|x| (x.clone(), inv)))
+                .collect(),
+            drivers: ls
+                .drivers
+                .iter()
+                .filter_map(|&k| grp.pins.get(k as usize).cloned())
+                .collect(),
+            hl_states: sol.states.len().saturating_sub(1),
+            duty_min: 1.0,
+            duty_max: 1.0,
             ..SwitchInfo::default()
         };
-        let sign = if p.kind.is_p_type() { -1.0 } else { 1.0 };
-        for r in results {
-            let on = r.switch_on.get(&pid).copied().unwrap_or(false);
-            let v = states::vgs(c, pid, r);
-            if r.is_reset() {
-                let ctl = p.kind.switch_pins().and_then(|(_, ctl, _)| p.net_of(ctl));
-                info.reset_floating = ctl.is_some_and(|n| r.floating.contains(&n));
-                info.reset_on = on;
+        for s in 0..sol.states.len() {
+            let reset = sol.is_reset(s);
+            if let Some(pt) = point(ls, s, Corner::Max) {
+                info.v_gs_abs_max = Some(info.v_gs_abs_max.map_or(pt.v_gs.abs(), |m: f64| m.max(pt.v_gs.abs())));
+                if reset {
+                    info.reset_on = pt.gated;
+                } else if pt.gated {
+                    info.on_states += 1;
+                }
+            }
+            if reset {
+                let k = nl.elem_index(ls.part as usize, Role::Main);
+                let ctl = k.and_then(|k| nl.elems[k].t.get(1).copied());
+                info.reset_floating = match (ctl, sol.op(s, Corner::Max, Mode::Stall)) {
+                    (Some(n), Some(o)) => o.is_floating(n),
+                    _ => false,
+                };
                 continue;
             }
-            info.hl_states += 1;
-            if let Some(v) = v {
-                let d = v * sign;
-                info.v_gs_abs_max =
-                    Some(info.v_gs_abs_max.map_or(v.abs(), |m: f64| m.max(v.abs())));
-                info.v_gs_best = Some(info.v_gs_best.map_or(d, |m: f64| m.max(d)));
-                if on {
-                    info.v_gs_on = Some(info.v_gs_on.map_or(d, |m: f64| m.min(d)));
+            if let Some(pt) = point(ls, s, Corner::Min) {
+                info.v_gs_best = Some(info.v_gs_best.map_or(pt.v_gs, |m: f64| m.max(pt.v_gs)));
+                if pt.region != Region::Off {
+                    info.v_gs_on = Some(info.v_gs_on.map_or(pt.v_gs, |m: f64| m.min(pt.v_gs)));
                 }
-            }
-            if on {
-                info.on_states += 1;
+                match pt.region {
+                    Region::On => info.ever_on = true,
+                    Region::Linear => {
+                        if info.linear.is_none_or(|l| pt.i_d.abs() > l.i_d.abs()) {
+                            info.linear = Some(*pt);
+                        }
+                    }
+                    Region::Off => {}
+                }
             }
         }
-        // which pins control it, and with which polarity
-        for (k, pin) in grp.pins.iter().enumerate() {
-            let mut controls = false;
-            let mut inverting = false;
-            for r in results {
-                if r.is_reset() || r.assignment.get(k) != Some(&PinState::High) {
-                    continue;
-                }
-                let mut flipped = r.assignment.clone();
-                flipped[k] = PinState::Low;
-                for j in partners(c, &grp.pins, k) {
-                    if let Some(x) = flipped.get_mut(j) {
-                        *x = if *x == PinState::High {
-                            PinState::Low
-                        } else {
-                            PinState::High
-                        };
-                    }
-                }
-                if let Some(other) = results.iter().skip(1).find(|o| o.assignment == flipped) {
-                    let on_h = r.switch_on.get(&pid).copied().unwrap_or(false);
-                    let on_l = other.switch_on.get(&pid).copied().unwrap_or(false);
-                    if on_h != on_l {
-                        controls = true;
-                        inverting = on_l;
-                        break;
-                    }
-                }
-            }
-            if controls {
-                info.controls.push((pin.clone(), inverting));
-            }
-        }
-        info.duty_min = 1.0;
-        info.duty_max = 1.0;
+        // PWM of the controlling pins
         for (pin, inv) in &info.controls {
-            let d = drive_of(c, pin)
-                .or_else(|| c.complement_of(pin.0, &pin.1).and_then(|o| drive_of(c, o)));
-            let inv = &if drive_of(c, pin).is_none() && d.is_some() {
-                !*inv
-            } else {
-                *inv
-            };
-            if let Some(d) = d
+            let d = c
+                .drive_of(pin.0, &pin.1)
+                .map(|d| (d, false))
+                .or_else(|| {
+                    c.complement_of(pin.0, &pin.1)
+                        .and_then(|o| c.drive_of(o.0, &o.1))
+                        .map(|d| (d, true))
+                });
+            if let Some((d, flipped)) = d
                 && let DriveKind::Pwm {
                     freq,
                     duty_min,
@@ -390,7 +544,8 @@ fn analyse_switches(
                 && freq > info.f_pwm
             {
                 info.f_pwm = freq;
-                let (lo, hi) = if *inv {
+                let inv = *inv != flipped;
+                let (lo, hi) = if inv {
                     (1.0 - duty_max, 1.0 - duty_min)
                 } else {
                     (duty_min, duty_max)
@@ -399,469 +554,593 @@ fn analyse_switches(
                 info.duty_max = hi;
             }
         }
-        // pin current of the controller pins on its control side
-        for r in results {
-            for (k, pin) in grp.pins.iter().enumerate() {
-                let idx = c
-                    .part(pin.0)
-                    .pins
-                    .iter()
-                    .position(|x| x.name == pin.1)
-                    .unwrap_or(0);
-                if let Some(&i) = r.pin_current.get(&(pin.0 * 64 + idx.min(63)))
-                    && r.assignment.get(k) == Some(&PinState::High)
-                    && info.controls.iter().any(|(cp, _)| cp == pin)
-                    && info.pin_current.as_ref().is_none_or(|(_, m)| i.abs() > *m)
-                {
-                    info.pin_current = Some((pin.clone(), i.abs()));
+        // the largest current out of a controlling pin
+        for (k, e) in nl.elems.iter().enumerate() {
+            let Dev::Pin { pin, .. } = e.dev else { continue };
+            let Some(cp) = grp.pins.get(pin as usize) else {
+                continue;
+            };
+            if !info.drivers.contains(cp) && !info.controls.iter().any(|(x, _)| x == cp) {
+                continue;
+            }
+            for (s, ops) in sol.ops.iter().enumerate() {
+                if sol.states.get(s).and_then(|x| x.get(pin as usize)) != Some(&PinState::High) {
+                    continue;
+                }
+                let o = &ops[solve::slot(Corner::Max, Mode::Stall)];
+                let i = -newton::currents(nl, k, &o.x, &o.ex, None)[0];
+                if info.pin_current.as_ref().is_none_or(|(_, m)| i.abs() > *m) {
+                    info.pin_current = Some((cp.clone(), i.abs()));
                 }
             }
         }
-        if let Some(v) = info.v_gs_on.or(info.v_gs_best) {
-            let note = if info.v_gs_on.is_some() {
-                "lowest gate drive over the states where it conducts"
-            } else {
-                "best drive over every pin state; it never conducts"
-            };
-            a.facts.set(pid, "v_gs_on", v, Voltage, Some(note.into()));
-        } else {
-            a.facts.missing(
+        // a stage of another switch's gate network
+        let control_nodes: Vec<Nd> = nl
+            .elems
+            .iter()
+            .filter(|e| e.part != ls.part)
+            .filter_map(|e| match (&e.dev, e.role) {
+                (Dev::Mos(_) | Dev::Bjt(_), Role::Main) | (Dev::Drv { .. }, _) => e.t.get(1).copied(),
+                _ => None,
+            })
+            .collect();
+        if let Some(km) = nl.elem_index(ls.part as usize, Role::Main) {
+            let mut ends: Vec<Nd> = vec![nl.elems[km].t[0], nl.elems[km].t[2]];
+            if let Some(ks) = nl.elem_index(ls.part as usize, Role::SeriesR) {
+                ends.push(nl.elems[ks].t[0]);
+            }
+            info.gate_stage = ends.iter().any(|&n| {
+                matches!(n, Nd::Var(_)) && control_nodes.iter().any(|&g| g == n || connected_by_resistors(nl, n, g))
+            });
+        }
+        let f = &mut a.facts;
+        let drive_name = if p.kind.is_bipolar() { "base-emitter" } else { "gate" };
+        match info.v_gs_on.or(info.v_gs_best) {
+            Some(v) => f.set(
                 pid,
                 "v_gs_on",
-                "the gate net has no defined voltage in any pin state",
-            );
+                v,
+                Voltage,
+                Some(if info.v_gs_on.is_some() {
+                    format!("lowest {drive_name} drive over the states where it conducts, rails at their minimum")
+                } else {
+                    format!("best {drive_name} drive over every pin state, rails at their minimum; it never conducts")
+                }),
+            ),
+            None => f.missing(pid, "v_gs_on", "its control net has no defined voltage in any pin state"),
         }
-        if p.kind.is_bipolar() {
-            let mut ib_min: Option<f64> = None;
-            let mut ib_max: Option<f64> = None;
-            for r in results.iter().filter(|r| !r.is_reset()) {
-                if r.switch_on.get(&pid).copied().unwrap_or(false) {
-                    let ib = r.current.get(&(pid + states::BASE)).copied().unwrap_or(0.0);
-                    ib_min = Some(ib_min.map_or(ib, |m| m.min(ib)));
-                    ib_max = Some(ib_max.map_or(ib, |m| m.max(ib)));
+        if ls.i_max > 0.0 {
+            let st = ls
+                .best
+                .and_then(|b| sol.states.get(b as usize))
+                .map(|x| describe_state(c, grp, x))
+                .unwrap_or_default();
+            f.set(pid, "i_on", ls.i_max, Current, Some(format!("largest current, motors stalled, rails at their maximum, with {st}")));
+            if let Some(pt) = ls.best.and_then(|b| point(ls, b as usize, Corner::Max)) {
+                f.set(pid, "v_ds_on", pt.v_ds, Voltage, Some(format!("{} at that point", pt.region.name())));
+            }
+        }
+        if let Some(rp) = ls.run_point {
+            let note = if sol.has_run {
+                "largest current with motors running (back-EMF from `i_rated`), rails at their maximum"
+            } else {
+                "largest current (no motor with `i_rated`: as at stall), rails at their maximum"
+            };
+            f.set(pid, "i_cont", rp.i_d.abs(), Current, Some(note.into()));
+        }
+        if p.kind.is_bipolar()
+            && let Some(kb) = nl.elem_index(ls.part as usize, Role::Main)
+        {
+            let mut lo: Option<f64> = None;
+            let mut hi: Option<f64> = None;
+            for s in 0..sol.states.len() {
+                if sol.is_reset(s) {
+                    continue;
+                }
+                if let (Some(pt), Some(o)) = (point(ls, s, Corner::Min), sol.op(s, Corner::Min, Mode::Stall))
+                    && pt.region != Region::Off
+                {
+                    let ib = newton::currents(nl, kb, &o.x, &o.ex, None)[1].abs();
+                    lo = Some(lo.map_or(ib, |m| m.min(ib)));
+                }
+                if let Some(o) = sol.op(s, Corner::Max, Mode::Stall) {
+                    let ib = newton::currents(nl, kb, &o.x, &o.ex, None)[1].abs();
+                    hi = Some(hi.map_or(ib, |m| m.max(ib)));
                 }
             }
-            if let (Some(lo), Some(hi)) = (ib_min, ib_max) {
-                a.facts.set(
-                    pid,
-                    "i_b",
-                    lo,
-                    Current,
-                    Some("lowest base current in the on states".into()),
-                );
-                a.facts.set(pid, "i_b_max", hi, Current, None);
+            if let Some(lo) = lo {
+                f.set(pid, "i_b", lo, Current, Some("lowest base current in the states where it conducts, rails at their minimum".into()));
+            }
+            if let Some(hi) = hi {
+                f.set(pid, "i_b_max", hi, Current, Some("largest base current, rails at their maximum".into()));
             }
         }
-        a.facts.set(pid, "f_pwm", info.f_pwm, Frequency, None);
-        a.facts.set(pid, "duty_max", info.duty_max, Number, None);
-        a.switches.insert(pid, info);
+        f.set(pid, "f_pwm", info.f_pwm, Frequency, None);
+        f.set(pid, "duty_max", info.duty_max, Number, None);
+        a.switches.push((pid, info));
     }
 }
 
-fn analyse_loads(
-    c: &Circuit,
-    s: &Settings,
-    gi: usize,
-    grp: &Group,
-    results: &[StateResult],
-    a: &mut GroupAcc,
-) {
-    for &lid in &grp.parts {
-        let lp = c.part(lid);
-        if !matches!(lp.kind, Kind::Motor | Kind::Solenoid | Kind::Relay) {
-            continue;
-        }
-        let (Some(np), Some(nm)) = (lp.net_of("+"), lp.net_of("-")) else {
+fn read_loads(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut GroupAcc) {
+    let nl = &sol.nl;
+    for (k, e) in nl.elems.iter().enumerate() {
+        let Dev::Load { r, l, emf } = e.dev else { continue };
+        let Some(&lid) = grp.parts.get(e.part as usize) else {
             continue;
         };
-        if lp.num("r").is_none() {
-            a.facts.missing(
-                lid,
-                "i_stall",
-                format!("`{}` has no winding resistance `r`", lp.reference),
-            );
-            continue;
-        }
-        // the states with the largest load current in each direction
-        let mut best_pos: Option<(usize, f64)> = None;
-        let mut best_neg: Option<(usize, f64)> = None;
-        for (i, r) in results.iter().enumerate() {
-            if r.is_reset() {
+        let lp = c.part(lid);
+        // the largest current, stalled, rails at their maximum
+        let mut best: Option<(usize, f64)> = None;
+        let mut run_max = 0.0f64;
+        for s in 0..sol.states.len() {
+            if sol.is_reset(s) {
                 continue;
             }
-            let il = r.current.get(&lid).copied().unwrap_or(0.0);
-            let slot = if il >= 0.0 {
-                &mut best_pos
-            } else {
-                &mut best_neg
-            };
-            if slot.is_none_or(|(_, b)| il.abs() > b.abs()) {
-                *slot = Some((i, il));
-            }
-        }
-        let solved = best_pos
-            .map_or(0.0, |b| b.1.abs())
-            .max(best_neg.map_or(0.0, |b| b.1.abs()));
-        if solved < 1e-6 {
-            a.facts.missing(
-                lid,
-                "i_stall",
-                "no pin state drives a current through the load",
-            );
-            continue;
-        }
-        let (i_stall, stall_note) = match lp.num("i_stall") {
-            Some(i) => (i, "given `i_stall`".to_string()),
-            None => {
-                let all_sw: Vec<PartId> = grp
-                    .parts
-                    .iter()
-                    .copied()
-                    .filter(|&q| c.part(q).kind.is_switch())
-                    .collect();
-                let v = supply_of(c, lid, &all_sw);
-                (
-                    solved,
-                    format!(
-                        "nodal solve at stall, rail at its maximum{}",
-                        if v > 0.0 {
-                            format!(" ({})", crate::units::format_si(v, Voltage))
-                        } else {
-                            String::new()
-                        }
-                    ),
-                )
-            }
-        };
-        let (i_cont, cont_note) = match lp.num("i_rated") {
-            Some(i) => (i, "given `i_rated`".to_string()),
-            None => (
-                i_stall,
-                "no `i_rated`: the stall current is used".to_string(),
-            ),
-        };
-        let dirs: Vec<(usize, f64)> = [best_pos, best_neg]
-            .into_iter()
-            .flatten()
-            .filter(|(_, il)| il.abs() >= 0.05 * solved)
-            .collect();
-        let mut switches: Vec<PartId> = Vec::new();
-        let mut per_dir: Vec<(usize, f64, Vec<PartId>)> = Vec::new();
-        for &(bi, il) in &dirs {
-            let st = &results[bi];
-            let sw: Vec<PartId> = grp
-                .parts
-                .iter()
-                .copied()
-                .filter(|&q| {
-                    c.part(q).kind.is_switch()
-                        && st.switch_on.get(&q).copied().unwrap_or(false)
-                        && st.current.get(&q).copied().unwrap_or(0.0).abs() >= 0.5 * il.abs()
-                })
-                .collect();
-            for &q in &sw {
-                if !switches.contains(&q) {
-                    switches.push(q);
+            if let Some(o) = sol.op(s, Corner::Max, Mode::Stall) {
+                let i = newton::currents(nl, k, &o.x, &o.ex, None)[0];
+                if best.is_none_or(|(_, b)| i.abs() > b.abs()) {
+                    best = Some((s, i));
                 }
             }
-            per_dir.push((bi, il, sw));
+            if let Some(o) = sol.op(s, Corner::Max, Mode::Run) {
+                run_max = run_max.max(newton::currents(nl, k, &o.x, &o.ex, None)[0].abs());
+            }
         }
-        // diodes across the load conducting while it is driven
+        let Some((bs, il)) = best.filter(|b| b.1.abs() > 1e-6) else {
+            a.facts.missing(lid, "i_stall", "no pin state drives a current through the load");
+            continue;
+        };
+        let i_stall = il.abs();
+        let supply = supply_of(c, lid);
+        a.facts.set(
+            lid,
+            "i_stall",
+            i_stall,
+            Current,
+            Some(format!(
+                "operating point at stall, rails at their maximum{}",
+                if supply > 0.0 { format!(" ({})", format_si(supply, Voltage)) } else { String::new() }
+            )),
+        );
+        let (i_cont, cont_note) = match lp.num("i_rated") {
+            Some(i) if emf > 0.0 => (run_max.max(i.min(i_stall)), format!("running against its back-EMF {} (from `i_rated`)", format_si(emf, Voltage))),
+            Some(i) => (i, "given `i_rated`".to_string()),
+            None => (i_stall, "no `i_rated`: the stall current is used".to_string()),
+        };
+        a.facts.set(lid, "i_cont", i_cont, Current, Some(cont_note));
+        // the switches that carry it
+        let mut switches = Vec::new();
+        for ls in &sol.switches {
+            if let Some(pt) = point(ls, bs, Corner::Max)
+                && pt.region != Region::Off
+                && pt.i_d.abs() >= 0.5 * i_stall
+                && let Some(&q) = grp.parts.get(ls.part as usize)
+            {
+                switches.push(q);
+            }
+        }
+        // diodes on its circuit that conduct while it is driven
         let mut reversed = Vec::new();
-        for &d in &grp.parts {
-            let dp = c.part(d);
-            if !dp.kind.is_diode() {
+        let (np, nm) = (e.t[0], e.t[1]);
+        for (kd, d) in nl.elems.iter().enumerate() {
+            if !matches!(d.dev, Dev::Diode(_)) || d.role != Role::Main {
                 continue;
             }
-            let (Some(da), Some(dk)) = (dp.net_of("a"), dp.net_of("k")) else {
-                continue;
-            };
-            // a diode across the load, or one that touches the load's
-            // switched end (one diode of a series freewheel path)
-            let switched = |n: NetId| (n == np || n == nm) && !c.net(n).is_fixed();
-            let across = (da == np && dk == nm) || (da == nm && dk == np);
-            if !(across || switched(da) || switched(dk)) {
+            let Some(&dp) = grp.parts.get(d.part as usize) else { continue };
+            let dpart = c.part(dp);
+            if !dpart.kind.is_diode() {
                 continue;
             }
-            let mut worst: f64 = 0.0;
-            for r in results.iter().filter(|r| !r.is_reset()) {
-                if r.current.get(&lid).copied().unwrap_or(0.0).abs() > 0.1 * solved {
-                    let id = r.current.get(&d).copied().unwrap_or(0.0);
+            let pins: Vec<Nd> = nl.elems_of(d.part as usize).iter().flat_map(|x| x.t.iter().copied()).collect();
+            let switched = |n: Nd| (n == np || n == nm) && matches!(n, Nd::Var(_));
+            if !pins.iter().any(|&n| switched(n)) {
+                continue;
+            }
+            let mut worst = 0.0f64;
+            for s in 0..sol.states.len() {
+                if sol.is_reset(s) {
+                    continue;
+                }
+                let Some(o) = sol.op(s, Corner::Max, Mode::Stall) else { continue };
+                if newton::currents(nl, k, &o.x, &o.ex, None)[0].abs() > 0.1 * i_stall {
+                    let id = newton::currents(nl, kd, &o.x, &o.ex, None)[0];
                     if id > 1e-3 {
                         worst = worst.max(id);
                     }
                 }
             }
             if worst > 0.0 {
-                reversed.push((d, worst));
+                reversed.push((dp, worst));
             }
         }
-        let f_pwm = switches
+        let (f_pwm, duty_max) = switches
             .iter()
-            .filter_map(|q| a.switches.get(q).map(|i| (i.f_pwm, i.duty_max)))
+            .filter_map(|q| a.switches.iter().find(|(p, _)| p == q).map(|(_, i)| (i.f_pwm, i.duty_max)))
             .fold((0.0f64, 1.0f64), |acc, x| if x.0 > acc.0 { x } else { acc });
-        a.facts
-            .set(lid, "i_stall", i_stall, Current, Some(stall_note.clone()));
-        a.facts
-            .set(lid, "i_cont", i_cont, Current, Some(cont_note.clone()));
-        a.facts.set(lid, "f_pwm", f_pwm.0, Frequency, None);
-        if f_pwm.0 > 0.0
-            && let (Some(l), Some(r)) = (lp.num("l"), lp.num("r"))
-        {
-            let v = supply_of(c, lid, &switches);
-            let d = if f_pwm.1 >= 0.5 {
-                0.5
-            } else {
-                f_pwm.1.max(0.0)
-            };
+        a.facts.set(lid, "f_pwm", f_pwm, Frequency, None);
+        if f_pwm > 0.0 && l > 0.0 {
+            let d = duty_max.clamp(0.0, 1.0).min(0.5);
             a.facts.set(
                 lid,
                 "i_ripple",
-                physics::ripple(v, r, l, f_pwm.0, d),
+                physics::ripple(supply, r, l, f_pwm, d),
                 Current,
                 Some(format!("peak-to-peak at duty {}", crate::units::percent(d))),
             );
-            // mean current at the largest duty, stalled (no back-EMF):
-            // (D·V - E)/R with E = 0
             a.facts.set(
                 lid,
                 "i_mean",
-                physics::pwm_mean(v, r, f_pwm.1, 0.0),
+                physics::pwm_mean(supply, r, duty_max, emf).max(0.0),
                 Current,
                 Some(format!(
-                    "at duty {}, stalled",
-                    crate::units::percent(f_pwm.1)
+                    "at duty {}, {}",
+                    crate::units::percent(duty_max),
+                    if emf > 0.0 { format!("running (back-EMF {})", format_si(emf, Voltage)) } else { "stalled".into() }
                 )),
             );
-        }
-        let scale = i_stall / solved;
-        for (bi, _il, sw) in &per_dir {
-            let st = &results[*bi];
-            for &q in sw {
-                let i_q = st.current.get(&q).copied().unwrap_or(0.0).abs() * scale;
-                if a.facts.value(q, "i_on").is_none_or(|v| i_q > v) {
-                    a.facts.set(
-                        q,
-                        "i_on",
-                        i_q,
-                        Current,
-                        Some(format!("stall of `{}`: {stall_note}", lp.reference)),
-                    );
-                }
-                a.facts.set(
-                    q,
-                    "i_cont",
-                    i_cont,
-                    Current,
-                    Some(format!("`{}`: {cont_note}", lp.reference)),
-                );
-                let t = freewheel::turn_off(c, s, grp, st, lid, q, &[], i_q);
-                if let Some(path) = &t.path {
-                    for &d in &path.parts {
-                        if c.part(d).kind.is_diode() {
-                            let prev = a.facts.value(d, "i_fw").unwrap_or(0.0);
-                            a.facts.set(
-                                d,
-                                "i_fw",
-                                prev.max(i_cont),
-                                Current,
-                                Some(format!(
-                                    "`{}` at turn-off of `{}`",
-                                    lp.reference,
-                                    c.part(q).reference
-                                )),
-                            );
-                            let prev = a.facts.value(d, "i_fw_peak").unwrap_or(0.0);
-                            a.facts.set(d, "i_fw_peak", prev.max(i_q), Current, None);
-                            let fp = a.facts.value(d, "f_pwm").unwrap_or(0.0);
-                            a.facts.set(d, "f_pwm", fp.max(f_pwm.0), Frequency, None);
-                            if f_pwm.0 > 0.0
-                                && let Some(dm) = a.switches.get(&q).map(|i| i.duty_min)
-                            {
-                                let e = a.diode_duty_min.entry(d).or_insert(dm);
-                                *e = e.min(dm);
-                            }
-                        }
-                    }
-                }
-                if a.facts.value(q, "v_peak").is_none_or(|v| t.v_peak > v) {
-                    if let Some(path) = &t.path {
-                        a.facts
-                            .set(q, "v_clamp", path.v_loop, Voltage, Some(path.describe(c)));
-                        a.facts.set(q, "t_decay", path.t_decay, Time, None);
-                        a.facts.set(q, "e_clamp", path.energy, Energy, None);
-                    }
-                    a.facts
-                        .set(q, "v_peak", t.v_peak, Voltage, Some(t.v_peak_note.clone()));
-                }
-                a.turnoffs.push(t);
-            }
-            // every switch of the load off at once (a reset while it runs)
-            if sw.len() >= 2 {
-                let i_all = st.current.get(&lid).copied().unwrap_or(0.0).abs() * scale;
-                for &q in sw {
-                    let t = freewheel::turn_off(c, s, grp, st, lid, q, sw, i_all);
-                    if a.facts.value(q, "v_peak").is_none_or(|v| t.v_peak > v) {
-                        a.facts.set(
-                            q,
-                            "v_peak",
-                            t.v_peak,
-                            Voltage,
-                            Some(format!(
-                                "all switches of `{}` off: {}",
-                                lp.reference, t.v_peak_note
-                            )),
-                        );
-                    }
-                    a.turnoffs.push(t);
-                }
-            }
         }
         a.loads.push(LoadInfo {
             part: lid,
             group: gi,
             switches,
             i_stall,
-            i_stall_note: stall_note,
             i_cont,
-            i_cont_note: cont_note,
             reversed,
-            f_pwm: f_pwm.0,
-            duty_max: f_pwm.1,
+            f_pwm,
+            duty_max,
         });
     }
 }
 
-fn analyse_legs(c: &Circuit, grp: &Group, results: &[StateResult], a: &mut GroupAcc) {
-    let sw: Vec<PartId> = grp
-        .parts
+/// The largest rail (nominal) a part's pins touch, else the board's.
+fn supply_of(c: &Circuit, pid: PartId) -> f64 {
+    let own = c
+        .part(pid)
+        .pins
         .iter()
-        .copied()
-        .filter(|&q| c.part(q).kind.is_switch())
+        .filter_map(|p| c.net(p.net).fixed_max())
+        .fold(0.0f64, |a, b| a.max(b.abs()));
+    if own > 0.0 {
+        own
+    } else {
+        c.nets.iter().filter_map(|n| n.fixed_max()).fold(0.0f64, |a, b| a.max(b.abs()))
+    }
+}
+
+fn read_edges(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut GroupAcc) {
+    let nl = &sol.nl;
+    for (ei, er) in sol.edges.iter().enumerate() {
+        let Some(&q) = grp.parts.get(er.switch as usize) else { continue };
+        let r = &er.res;
+        let load = r.load.and_then(|p| grp.parts.get(p as usize).copied());
+        // stored energy and charge of the loads
+        let mut e_load = 0.0;
+        let mut q_load = 0.0f64;
+        for (k, e) in nl.elems.iter().enumerate() {
+            if let Dev::Load { l, .. } = e.dev
+                && let Some(o) = sol.op(er.from as usize, Corner::Max, er.mode)
+            {
+                let i = newton::currents(nl, k, &o.x, &o.ex, None)[0];
+                e_load += 0.5 * l * i * i;
+                if let Some(pe) = r.parts.iter().find(|x| x.part == e.part) {
+                    q_load = q_load.max(pe.charge);
+                }
+            }
+        }
+        let is_load = |p: u32| nl.elem_index(p as usize, Role::Main).is_some_and(|k| matches!(nl.elems[k].dev, Dev::Load { .. }));
+        let path: Vec<(PartId, f64)> = r
+            .parts
+            .iter()
+            .filter(|x| !is_load(x.part) && q_load > 0.0 && x.charge >= 0.2 * q_load)
+            .filter_map(|x| grp.parts.get(x.part as usize).map(|&p| (p, x.energy)))
+            .collect();
+        let rails: Vec<(NetId, f64)> = r
+            .rail_energy
+            .iter()
+            .filter(|(_, en)| *en > 0.05 * e_load && e_load > 0.0)
+            .filter_map(|&(j, en)| {
+                let f = nl.fixed.get(j as usize)?;
+                (f.net < c.nets.len() && matches!(c.net(f.net).kind, crate::model::NetKind::Rail(_))).then_some((f.net, en))
+            })
+            .collect();
+        let avalanche = q_load > 0.0 && r.q_aval >= 0.2 * q_load;
+        let t = TurnOff {
+            switch: q,
+            load,
+            kind: er.kind,
+            mode: er.mode,
+            group: gi,
+            edge: ei,
+            i0: r.i0.abs(),
+            il0: r.il0.abs(),
+            v_peak: r.v_peak,
+            t_off: r.t_off,
+            t_decay: r.t_decay,
+            e_off: r.e_off,
+            e_aval: r.e_aval,
+            e_load,
+            path,
+            rails,
+            avalanche,
+            failed: r.failed.is_some(),
+        };
+        let f = &mut a.facts;
+        let how = match er.kind {
+            EdgeKind::Toggle => "simulated turn-off",
+            EdgeKind::Reset => "simulated reset while it conducts",
+        };
+        if f.value(q, "v_peak").is_none_or(|v| t.v_peak > v) {
+            f.set(q, "v_peak", t.v_peak, Voltage, Some(format!("{how}, motors stalled, rails at their maximum")));
+        }
+        if er.mode == Mode::Stall && er.kind == EdgeKind::Toggle {
+            if let Some(td) = t.t_decay {
+                f.set(q, "t_decay", td, Time, Some("load current to 10 % of its start after the turn-off".into()));
+            }
+            let e_cl: f64 = r
+                .parts
+                .iter()
+                .filter(|x| grp.parts.get(x.part as usize).is_some_and(|&p| matches!(c.part(p).kind, Kind::Zener | Kind::Tvs)))
+                .map(|x| x.energy)
+                .sum::<f64>()
+                + r.e_aval;
+            f.set(q, "e_clamp", e_cl, Energy, Some("energy into clamp parts and the switch's own breakdown at one turn-off, stalled".into()));
+        }
+        let last_mode = if sol.has_run { Mode::Run } else { Mode::Stall };
+        if er.kind == EdgeKind::Toggle && er.mode == last_mode {
+            if let Some(x) = r.t_off {
+                f.set(q, "t_off", x, Time, Some("gate command to channel current below 10 %, simulated with the gate network".into()));
+            }
+            if let Some(x) = r.t_on {
+                f.set(q, "t_on", x, Time, Some("gate command to channel current at 90 %, simulated".into()));
+            }
+            f.set(q, "e_off", r.e_off, Energy, Some("∫V_DS·I_D dt over the simulated turn-off".into()));
+            f.set(q, "e_on", r.e_on, Energy, Some("∫V_DS·I_D dt over the simulated turn-on, less e_rr".into()));
+            f.set(q, "e_rr", r.e_rr, Energy, Some("∫V_DS·(I_D − I_final) dt: the freewheel path's recovery current in the switch".into()));
+            f.set(q, "e_aval", r.e_aval, Energy, Some("energy in the switch's own breakdown at turn-off".into()));
+        }
+        // clamp parts and freewheel diodes
+        for x in &r.parts {
+            let Some(&dp) = grp.parts.get(x.part as usize) else { continue };
+            let kind = c.part(dp).kind;
+            if !kind.is_diode() || x.charge < 0.2 * q_load.max(1e-30) {
+                continue;
+            }
+            let fsw = a.switches.iter().find(|(p, _)| *p == q).map(|(_, i)| (i.f_pwm, i.duty_min)).unwrap_or((0.0, 1.0));
+            if matches!(kind, Kind::Zener | Kind::Tvs) && er.kind == EdgeKind::Toggle {
+                if er.mode == Mode::Stall && f.value(dp, "e_clamp").is_none_or(|v| x.energy > v) {
+                    f.set(dp, "e_clamp", x.energy, Energy, Some(format!("absorbed at one turn-off of `{}`, stalled", c.part(q).reference)));
+                }
+                if er.mode == last_mode && fsw.0 > 0.0 {
+                    let pw = x.energy * fsw.0;
+                    if f.value(dp, "p_clamp").is_none_or(|v| pw > v) {
+                        f.set(dp, "p_clamp", pw, Power, Some(format!("e_clamp·f_pwm at the turn-off of `{}` ({})", c.part(q).reference, format_si(fsw.0, Frequency))));
+                    }
+                }
+            }
+            if er.kind == EdgeKind::Toggle {
+                if er.mode == last_mode {
+                    let prev = f.value(dp, "i_fw").unwrap_or(0.0);
+                    if x.i_peak > prev {
+                        f.set(dp, "i_fw", x.i_peak, Current, Some(format!("current it takes over when `{}` turns off", c.part(q).reference)));
+                        let avg = if fsw.0 > 0.0 { x.i_peak * (1.0 - fsw.1) } else { x.i_peak };
+                        f.set(dp, "i_avg", avg, Current, Some(if fsw.0 > 0.0 {
+                            format!("i_fw over the off-time at the smallest duty {}", crate::units::percent(fsw.1))
+                        } else {
+                            "i_fw: a static drive can leave the load freewheeling".to_string()
+                        }));
+                    }
+                    let fp = f.value(dp, "f_pwm").unwrap_or(0.0);
+                    f.set(dp, "f_pwm", fp.max(fsw.0), Frequency, None);
+                }
+                if er.mode == Mode::Stall {
+                    let prev = f.value(dp, "i_fw_peak").unwrap_or(0.0);
+                    f.set(dp, "i_fw_peak", prev.max(x.i_peak), Current, Some("peak at a turn-off with the load stalled".into()));
+                }
+            }
+        }
+        for &(dpl, irr) in &r.i_rr {
+            if let Some(&dp) = grp.parts.get(dpl as usize)
+                && c.part(dp).kind.is_diode()
+                && irr > 1e-3
+                && f.value(dp, "i_rr").is_none_or(|v| irr > v)
+            {
+                f.set(dp, "i_rr", irr, Current, Some(format!("peak reverse-recovery current when `{}` turns on", c.part(q).reference)));
+            }
+        }
+        a.turnoffs.push(t);
+    }
+}
+
+fn read_legs(c: &Circuit, grp: &Group, sol: &GroupSolution, a: &mut GroupAcc) {
+    let nl = &sol.nl;
+    // the main terminals of each switch element
+    let sws: Vec<(usize, PartId, Nd, Nd)> = sol
+        .switches
+        .iter()
+        .filter_map(|ls| {
+            let k = nl.elem_index(ls.part as usize, Role::Main)?;
+            let e = &nl.elems[k];
+            let (m, r) = (e.t.first().copied()?, e.t.last().copied()?);
+            // a collector behind its series resistance: take the pin's node
+            let m = match nl.elem_index(ls.part as usize, Role::SeriesR) {
+                Some(ks) if nl.elems[ks].t.get(1) == Some(&m) => nl.elems[ks].t[0],
+                _ => m,
+            };
+            Some((ls.part as usize, *grp.parts.get(ls.part as usize)?, m, r))
+        })
         .collect();
-    for &x in &sw {
-        for &y in &sw {
+    let fixed_v = |n: Nd| match n {
+        Nd::Fix(j) => nl.fixed.get(j as usize).map(|f| f.max),
+        Nd::Var(_) => None,
+    };
+    for &(xl, x, xm, xr) in &sws {
+        for &(yl, y, ym, yr) in &sws {
             if x == y {
                 continue;
             }
-            let (px, py) = (c.part(x), c.part(y));
-            let main = |p: &crate::model::Part| -> Option<(NetId, NetId)> {
-                let (m, _, r) = p.kind.switch_pins()?;
-                Some((p.net_of(m)?, p.net_of(r)?))
+            let ends = |a1: Nd, a2: Nd| match (fixed_v(a1), fixed_v(a2)) {
+                (Some(v), None) => Some((a1, a2, v)),
+                (None, Some(v)) => Some((a2, a1, v)),
+                _ => None,
             };
-            let (Some((xm, xr)), Some((ym, yr))) = (main(px), main(py)) else {
+            let (Some((xf, xmid, vx)), Some((yf, ymid, vy))) = (ends(xm, xr), ends(ym, yr)) else {
                 continue;
             };
-            // x: between a fixed net (upper) and mid; y: mid and a lower fixed net
-            let ends = |a1: NetId, a2: NetId| -> Option<(NetId, NetId)> {
-                match (c.net(a1).fixed_max(), c.net(a2).fixed_max()) {
-                    (Some(_), None) => Some((a1, a2)),
-                    (None, Some(_)) => Some((a2, a1)),
-                    _ => None,
+            if xmid != ymid || vx <= vy {
+                continue;
+            }
+            let Nd::Var(mid_i) = xmid else { continue };
+            let Some(&mid) = grp.nets.get(mid_i as usize) else { continue };
+            // current flowing down through both, in some high/low state
+            let down = |part: usize, top: Nd, o: &op::OpPoint| -> f64 {
+                nl.elems_of(part)
+                    .iter()
+                    .enumerate()
+                    .filter(|(_, e)| matches!(e.role, Role::Main | Role::Body | Role::SeriesR) && !matches!(e.dev, Dev::Res { .. }))
+                    .map(|(i, e)| {
+                        let k = nl.part_start[part] as usize + i;
+                        let cur = newton::currents(nl, k, &o.x, &o.ex, None);
+                        e.t.iter().zip(cur.iter()).filter(|(n, _)| **n == top).map(|(_, c)| *c).sum::<f64>()
+                    })
+                    .sum()
+            };
+            let mut both = None;
+            for s in 0..sol.states.len() {
+                if sol.is_reset(s) {
+                    continue;
                 }
-            };
-            let (Some((xf, xmid)), Some((yf, ymid))) = (ends(xm, xr), ends(ym, yr)) else {
-                continue;
-            };
-            if xmid != ymid {
-                continue;
+                let Some(o) = sol.op(s, Corner::Max, Mode::Stall) else { continue };
+                let i_hi = down(xl, xf, o);
+                let i_lo = down(yl, ymid, o);
+                let through = i_hi.min(i_lo);
+                if through > 1e-3 && both.as_ref().is_none_or(|(_, b)| through > *b) {
+                    both = Some((s, through));
+                }
             }
-            let (vx, vy) = (
-                c.net(xf).fixed_max().unwrap_or(0.0),
-                c.net(yf).fixed_max().unwrap_or(0.0),
-            );
-            if vx <= vy {
-                continue;
-            }
-            let both = results.iter().filter(|r| !r.is_reset()).find(|r| {
-                r.switch_on.get(&x).copied().unwrap_or(false)
-                    && r.switch_on.get(&y).copied().unwrap_or(false)
-            });
+            let _ = yf;
             a.legs.push(Leg {
                 high: x,
                 low: y,
-                mid: xmid,
-                both_on: both.map(|r| {
-                    grp.pins
-                        .iter()
-                        .cloned()
-                        .zip(r.assignment.iter().copied())
-                        .collect()
+                mid,
+                both_on: both.map(|(s, i)| {
+                    (
+                        grp.pins.iter().cloned().zip(sol.states[s].iter().copied()).collect(),
+                        i,
+                    )
                 }),
             });
         }
     }
+    let _ = c;
 }
 
-fn analyse_diodes(c: &Circuit, grp: &Group, results: &[StateResult], a: &mut GroupAcc) {
-    for &d in &grp.parts {
+fn read_diodes(c: &Circuit, grp: &Group, sol: &GroupSolution, a: &mut GroupAcc) {
+    let nl = &sol.nl;
+    for (li, &d) in grp.parts.iter().enumerate() {
         let p = c.part(d);
         if !p.kind.is_diode() {
             continue;
         }
-        let (Some(an), Some(kn)) = (p.net_of("a"), p.net_of("k")) else {
+        let es = nl.elems_of(li);
+        let (Some(an), Some(kn)) = (es.first().and_then(|e| e.t.first().copied()), es.last().and_then(|e| e.t.get(1).copied())) else {
             continue;
         };
         let mut vrev: Option<f64> = None;
-        for r in results {
-            if let (Some(va), Some(vk)) = (r.v(c, an), r.v(c, kn)) {
-                if r.floating.contains(&an) || r.floating.contains(&kn) {
-                    continue;
-                }
-                vrev = Some(vrev.map_or(vk - va, |m: f64| m.max(vk - va)));
+        for ops in &sol.ops {
+            let o = &ops[solve::slot(Corner::Max, Mode::Stall)];
+            if o.is_floating(an) || o.is_floating(kn) {
+                continue;
             }
+            let v = o.v(kn) - o.v(an);
+            vrev = Some(vrev.map_or(v, |m: f64| m.max(v)));
         }
         match vrev {
-            Some(v) => a.facts.set(
-                d,
-                "v_rev",
-                v.max(0.0),
-                Voltage,
-                Some("worst DC reverse voltage over every pin state".into()),
-            ),
-            None => a
-                .facts
-                .missing(d, "v_rev", "its nets have no defined voltage in any state"),
+            Some(v) => a.facts.set(d, "v_rev", v.max(0.0), Voltage, Some("largest DC reverse voltage over every pin state, rails at their maximum".into())),
+            None => a.facts.missing(d, "v_rev", "its nets have no defined voltage in any state"),
         }
     }
 }
 
-/// Freewheel diodes: average current over the off-time and conduction
-/// loss `P = vf·I_avg` (recovery loss `Qrr·V·f` where `qrr` is given).
-fn diode_losses(c: &Circuit, a: &mut Analysis) {
-    for (d, p) in c.parts.iter().enumerate() {
-        if !p.kind.is_diode() {
+fn read_resistors(c: &Circuit, grp: &Group, sol: &GroupSolution, a: &mut GroupAcc) {
+    let nl = &sol.nl;
+    for (li, &r) in grp.parts.iter().enumerate() {
+        if c.part(r).kind != Kind::Resistor {
             continue;
         }
-        let Some(ifw) = a.facts.value(d, "i_fw") else {
-            continue;
-        };
-        let f = a.facts.value(d, "f_pwm").unwrap_or(0.0);
-        // the diode carries the load current while its switch is off;
-        // with the smallest duty that is most of the period
-        let duty_min = a.diode_duty_min.get(&d).copied();
-        let i_avg = match duty_min {
-            Some(dm) if f > 0.0 => ifw * (1.0 - dm),
-            _ => ifw,
-        };
-        let vf = p.num("vf").unwrap_or(states::DIODE_VF);
-        let v_rev = a.facts.value(d, "v_rev").unwrap_or(0.0);
-        let p_rr = p.num("qrr").map(|q| q * v_rev * f).unwrap_or(0.0);
-        a.facts.set(
-            d,
-            "i_avg",
-            i_avg,
-            Current,
-            Some("load current over the off-time".into()),
-        );
-        a.facts.set(
-            d,
-            "p_loss",
-            vf * i_avg + p_rr,
-            Power,
-            Some("vf·I_avg + Qrr·V·f".into()),
-        );
+        let Some(k) = nl.elem_index(li, Role::Main) else { continue };
+        let mut worst: Option<(usize, f64)> = None;
+        for s in 0..sol.states.len() {
+            if let Some(o) = sol.op(s, Corner::Max, Mode::Run) {
+                let e = &nl.elems[k];
+                let i = newton::currents(nl, k, &o.x, &o.ex, None)[0];
+                let pw = i * (o.v(e.t[0]) - o.v(e.t[1]));
+                if worst.is_none_or(|(_, w)| pw > w) {
+                    worst = Some((s, pw));
+                }
+            }
+        }
+        if let Some((s, pw)) = worst {
+            let st = sol.states.get(s).map(|x| describe_state(c, grp, x)).unwrap_or_default();
+            a.facts.set(r, "p_loss", pw.max(0.0), Power, Some(format!("largest continuous dissipation, motors running, rails at their maximum, with {st}")));
+        }
     }
+}
+
+fn read_driver_inputs(c: &Circuit, grp: &Group, sol: &GroupSolution, a: &mut GroupAcc) {
+    let nl = &sol.nl;
+    let Some(reset) = sol.op(0, Corner::Max, Mode::Stall).filter(|_| sol.is_reset(0)) else {
+        return;
+    };
+    for e in &nl.elems {
+        let (Dev::Drv { .. }, Role::Out(k)) = (&e.dev, e.role) else { continue };
+        if !reset.is_floating(e.t[1]) {
+            continue;
+        }
+        let Some(&drv) = grp.parts.get(e.part as usize) else { continue };
+        let dp = c.part(drv);
+        let pin = if dp.pins.get(k as usize).is_some_and(|p| p.name == "outb") { "inb" } else { "in" };
+        // switches downstream: those whose control node the output reaches
+        let out = e.t[0];
+        let switches: Vec<PartId> = sol
+            .switches
+            .iter()
+            .filter(|ls| {
+                nl.elem_index(ls.part as usize, Role::Main)
+                    .and_then(|km| nl.elems[km].t.get(1).copied())
+                    .is_some_and(|g| g == out || connected_by_resistors(nl, out, g))
+            })
+            .filter_map(|ls| grp.parts.get(ls.part as usize).copied())
+            .collect();
+        a.floating_inputs.push(FloatingInput {
+            driver: drv,
+            pin,
+            switches,
+            controllers: grp.pins.clone(),
+        });
+    }
+}
+
+/// Two nodes joined through resistors only (a gate resistor after a
+/// driver's output).
+fn connected_by_resistors(nl: &netlist::Netlist, a: Nd, b: Nd) -> bool {
+    let mut seen = vec![a];
+    let mut frontier = vec![a];
+    while let Some(n) = frontier.pop() {
+        for e in &nl.elems {
+            if !matches!(e.dev, Dev::Res { .. }) || e.role != Role::Main {
+                continue;
+            }
+            let other = if e.t[0] == n { e.t[1] } else if e.t[1] == n { e.t[0] } else { continue };
+            if other == b {
+                return true;
+            }
+            if matches!(other, Nd::Var(_)) && !seen.contains(&other) && seen.len() < 64 {
+                seen.push(other);
+                frontier.push(other);
+            }
+        }
+    }
+    false
 }
 
 fn rail_shorts(c: &Circuit, a: &mut Analysis) {
@@ -870,34 +1149,25 @@ fn rail_shorts(c: &Circuit, a: &mut Analysis) {
         let how = match p.kind {
             Kind::Diode | Kind::Zener | Kind::Tvs => match (fixed("a"), fixed("k")) {
                 (Some(va), Some(vk)) => {
-                    let vf = p.num("vf").unwrap_or(states::DIODE_VF);
-                    let vr = match p.kind {
-                        Kind::Zener => p.num("vz"),
-                        Kind::Tvs => p.num("v_clamp"),
-                        _ => None,
-                    };
-                    if va - vk > vf {
-                        Some(format!(
-                            "forward-biased by {}",
-                            crate::units::format_si(va - vk, Voltage)
-                        ))
-                    } else if vr.is_some_and(|vr| vk - va > vr) {
-                        Some(format!(
-                            "driven {} into breakdown",
-                            crate::units::format_si(vk - va, Voltage)
-                        ))
+                    let (d, _) = devices::Diode::fit(p);
+                    // a conducting junction: more than 1 mA at the rails' voltage
+                    let v = va - vk;
+                    let i = d.eval(v).0;
+                    if v > 0.0 && i > 1e-3 {
+                        Some(format!("forward-biased by {}", format_si(v, Voltage)))
+                    } else if v < 0.0 && i < -1e-3 {
+                        Some(format!("driven {} into breakdown", format_si(-v, Voltage)))
                     } else {
                         None
                     }
                 }
                 _ => None,
             },
-            Kind::Inductor | Kind::Motor | Kind::Solenoid | Kind::Relay => None,
             Kind::Resistor => match (fixed("1"), fixed("2"), p.num("value")) {
                 (Some(x), Some(y), Some(r)) if (x - y).abs() > 0.0 && r < 0.1 => Some(format!(
                     "{} across {}",
-                    crate::units::format_si(r, Resistance),
-                    crate::units::format_si((x - y).abs(), Voltage)
+                    format_si(r, Resistance),
+                    format_si((x - y).abs(), Voltage)
                 )),
                 _ => None,
             },
@@ -909,116 +1179,96 @@ fn rail_shorts(c: &Circuit, a: &mut Analysis) {
     }
 }
 
+/// Losses and junction temperature: `P = P_cond(Tj) + (e_on + e_off +
+/// e_rr + e_aval)·f_pwm`, iterated with the on-resistance at `Tj`
+/// (Erickson & Maksimović, ch. 4, for the split into conduction and
+/// switching loss). Conduction: `V_DS·I_D·D` at the running operating
+/// point, scaled by `R(Tj)/R(25 °C)` when the switch is fully on (a linear
+/// switch dissipates `V_DS·I_D` whatever its temperature).
 fn thermal(c: &Circuit, s: &Settings, a: &mut Analysis) {
     let ta = s.ambient;
+    let mut edges: HashMap<PartId, (f64, f64, f64, f64)> = HashMap::default();
+    for t in &a.turnoffs {
+        let sol = &a.solutions[t.group];
+        let last = if sol.has_run { Mode::Run } else { Mode::Stall };
+        if t.kind == EdgeKind::Toggle && t.mode == last
+            && let Some(er) = sol.edges.get(t.edge)
+        {
+            edges.insert(t.switch, (er.res.e_on, er.res.e_off, er.res.e_rr, er.res.e_aval));
+        }
+    }
     for (pid, p) in c.parts.iter().enumerate() {
         if !p.kind.is_switch() {
             continue;
         }
-        let Some(i) = a.facts.value(pid, "i_cont") else {
-            a.facts
-                .missing(pid, "p_loss", "no load current through it was found");
-            a.facts
-                .missing(pid, "tj", "no load current through it was found");
+        let Some(info) = a.switches.get(&pid) else { continue };
+        let sol = &a.solutions[info.group];
+        let Some(ls) = a.groups.get(info.group).and_then(|g| g.parts.iter().position(|&x| x == pid)).and_then(|li| sol.switch(li as u32)) else {
             continue;
         };
-        let info = a.switches.get(&pid).cloned().unwrap_or_default();
+        let Some(rp) = ls.run_point.filter(|rp| rp.i_d.abs() >= solve::I_LOAD_MIN) else {
+            a.facts.missing(pid, "p_loss", "it carries no load current in any state");
+            a.facts.missing(pid, "tj", "it carries no load current in any state");
+            continue;
+        };
         let d = if info.f_pwm > 0.0 { info.duty_max } else { 1.0 };
+        let p_on = (rp.v_ds * rp.i_d).abs() * d;
+        let linear = rp.region == Region::Linear;
+        let (e_on, e_off, e_rr, e_aval) = edges.get(&pid).copied().unwrap_or_default();
         let f = info.f_pwm;
-        let v = a.facts.value(pid, "v_peak").unwrap_or(0.0);
-        let p_of: Box<dyn Fn(f64) -> f64> = match p.kind {
-            Kind::Nmos | Kind::Pmos => {
-                let Some(r25) = p.num("rds_on") else {
-                    a.facts
-                        .missing(pid, "p_loss", format!("`{}` has no `rds_on`", p.reference));
-                    a.facts
-                        .missing(pid, "tj", format!("`{}` has no `rds_on`", p.reference));
-                    continue;
-                };
-                let edges = match (p.num("tr"), p.num("tf")) {
-                    (Some(tr), Some(tf)) => tr + tf,
-                    _ => {
-                        // t ≈ Qgd / I_gate, I_gate = (V_drive - V_plateau) / R_gate
-                        let qgd = p.num("qgd").or(p.num("qg").map(|q| q / 3.0)).unwrap_or(0.0);
-                        let vdrive = info.v_gs_on.unwrap_or(0.0);
-                        let vpl = p
-                            .num("vgs_plateau")
-                            .unwrap_or(p.num("vgs_th").unwrap_or(2.0) + 1.0);
-                        let rg = states::MCU_R_OUT + 100.0;
-                        if vdrive > vpl {
-                            2.0 * qgd * rg / (vdrive - vpl)
-                        } else {
-                            0.0
-                        }
-                    }
-                };
-                let psw = physics::switching_loss(v, i, edges, 0.0, f, 0.5);
-                Box::new(move |tj| i * i * d * physics::rds_at(r25, tj, physics::RDS_ALPHA) + psw)
+        // with no gate charge given, the data sheet's edge times stand in
+        let p_sw = if p.kind.is_mos() && p.num("qg").is_none() {
+            match (p.num("tr"), p.num("tf")) {
+                (Some(tr), Some(tf)) => 0.5 * rp.v_ds.abs().max(supply_of(c, pid)) * rp.i_d.abs() * (tr + tf) * f,
+                _ => (e_on + e_off + e_rr) * f,
             }
-            _ => {
-                let vsat = p.num("vce_sat").unwrap_or(0.2);
-                let edges = p.num("tf").unwrap_or(0.0) * 2.0;
-                let psw = physics::switching_loss(v, i, edges, 0.0, f, 0.5);
-                Box::new(move |_| vsat * i * d + psw)
+        } else {
+            (e_on + e_off + e_rr) * f
+        } + e_aval * f;
+        let p_of = move |tj: f64| -> f64 {
+            if linear || !p.kind.is_mos() {
+                p_on + p_sw
+            } else {
+                p_on * devices::mosfet::r_at(1.0, tj) + p_sw
             }
         };
-        let p0 = p_of(ta);
+        let note_cause = if e_aval * f > 0.5 * p_of(ta) {
+            "; mostly avalanche energy at every edge"
+        } else if linear {
+            "; it conducts in its linear region"
+        } else {
+            ""
+        };
         let Some(rth) = p.num("rth_ja") else {
-            a.facts.set(
-                pid,
-                "p_loss",
-                p0,
-                Power,
-                Some(format!(
-                    "at {} (no `rth_ja`)",
-                    crate::units::format_si(ta, Temperature)
-                )),
-            );
-            a.facts
-                .missing(pid, "tj", format!("`{}` has no `rth_ja`", p.reference));
+            a.facts.set(pid, "p_loss", p_of(ta), Power, Some(format!("at {} (no `rth_ja`){note_cause}", format_si(ta, Temperature))));
+            a.facts.missing(pid, "tj", format!("`{}` has no `rth_ja`", p.reference));
             continue;
         };
+        if f > 0.0 {
+            a.facts.set(pid, "p_sw", p_sw, Power, Some("(e_on + e_off + e_rr + e_aval)·f_pwm".into()));
+        }
         let limit = p.num("tj_max").unwrap_or(150.0) + 300.0;
-        match physics::junction_temperature(ta, rth, limit, &*p_of) {
+        match physics::junction_temperature(ta, rth, limit, p_of) {
             physics::Thermal::Converged { tj, p: pw } => {
-                a.facts.set(
-                    pid,
-                    "p_loss",
-                    pw,
-                    Power,
-                    Some(format!(
-                        "at Tj {}",
-                        crate::units::format_si(tj, Temperature)
-                    )),
-                );
-                a.facts.set(
-                    pid,
-                    "tj",
-                    tj,
-                    Temperature,
-                    Some(format!(
-                        "ambient {} + P·Rth",
-                        crate::units::format_si(ta, Temperature)
-                    )),
-                );
+                a.facts.set(pid, "p_loss", pw, Power, Some(format!("at Tj {}{note_cause}", format_si(tj, Temperature))));
+                a.facts.set(pid, "tj", tj, Temperature, Some(format!("ambient {} + P·Rth", format_si(ta, Temperature))));
             }
             physics::Thermal::Runaway { p_at_limit } => {
-                a.facts.set(
-                    pid,
-                    "p_loss",
-                    p_at_limit,
-                    Power,
-                    Some("thermal runaway: no fixed point".into()),
-                );
-                a.facts.set(
-                    pid,
-                    "tj",
-                    limit,
-                    Temperature,
-                    Some("thermal runaway: no fixed point below the limit".into()),
-                );
+                a.facts.set(pid, "p_loss", p_at_limit, Power, Some("thermal runaway: no fixed point".into()));
+                a.facts.set(pid, "tj", limit, Temperature, Some("thermal runaway: no fixed point below the limit".into()));
             }
         }
+    }
+    // freewheel diodes: conduction over the off-time and recovery
+    for (d, p) in c.parts.iter().enumerate() {
+        if !p.kind.is_diode() {
+            continue;
+        }
+        let Some(i_avg) = a.facts.value(d, "i_avg") else { continue };
+        let (model, _) = devices::Diode::fit(p);
+        let i_fw = a.facts.value(d, "i_fw").unwrap_or(i_avg);
+        let vf = model.v_at(i_fw.max(1e-9));
+        a.facts.set(d, "p_loss", vf * i_avg, Power, Some(format!("V_F({}) = {} × i_avg", format_si(i_fw, Current), format_si(vf, Voltage))));
     }
 }
 

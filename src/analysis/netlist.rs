@@ -325,6 +325,11 @@ impl Builder<'_> {
                     col
                 };
                 self.push(Dev::Bjt(q), vec![ci, b, e], li, Role::Main);
+                // its output capacitance, so that the collector's voltage
+                // moves at a finite rate when an inductive current
+                // commutates
+                let cce = p.num("coss").unwrap_or(super::devices::bjt::COSS_DEFAULT);
+                self.push(Dev::Cap { c: cce }, vec![col, e], li, Role::Cds);
                 if let Some(vmax) = p.num("vce_max") {
                     let av = Diode::avalanche(vmax);
                     if p.kind == Kind::Npn {

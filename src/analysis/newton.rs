@@ -59,6 +59,7 @@ pub struct Hist {
 }
 
 /// A group's matrix and the Newton state of its devices.
+#[derive(Clone)]
 pub struct Engine<'a> {
     pub nl: &'a Netlist,
     vals: Vec<f64>,

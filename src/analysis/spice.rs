@@ -242,3 +242,216 @@ pub fn op_deck(
     let _ = writeln!(s, ".endc\n.end");
     s
 }
+
+/// A deck that simulates an edge from the operating point of its first
+/// pin levels and writes the probes over time with `wrdata` to `out`.
+#[allow(clippy::too_many_arguments)]
+pub fn tran_deck(
+    title: &str,
+    names: &Names,
+    corner: Corner,
+    pins: &[Option<Vec<(f64, f64)>>],
+    emf: &[f64],
+    t_stop: f64,
+    t_max: f64,
+    probes: &[String],
+    expected: &[(String, f64)],
+    out: &str,
+) -> String {
+    let mut s = String::new();
+    let _ = writeln!(s, "* {title}");
+    let _ = writeln!(s, "* rails at their {}; devices at 27 degC", corner.name());
+    for (k, v) in expected {
+        let _ = writeln!(s, "* expected: {k} = {v:.9e}");
+    }
+    elements(&mut s, names, corner, &PinDrive::Pwl(pins), emf);
+    let _ = writeln!(s, ".control");
+    let _ = writeln!(s, "tran {:.6e} {:.9e} 0 {:.6e}", t_max / 10.0, t_stop, t_max);
+    let _ = writeln!(s, "wrdata {out} {}", probes.join(" "));
+    let _ = writeln!(s, ".endc\n.end");
+    s
+}
+
+/// The probes an edge deck writes, in this order: V_DS and V_GS of the
+/// switch (device polarity), its channel current, the main load's current.
+pub struct EdgeDeck {
+    pub deck: String,
+    /// Sign that turns the probes into device polarity.
+    pub polarity: f64,
+    pub t_stop: f64,
+    /// The engine's figures, as in the `* expected:` lines.
+    pub expected: Vec<(String, f64)>,
+}
+
+/// The deck of a switch's turn-off as the engine simulates it: the
+/// group's netlist, rails at their maximum, the pins' piecewise-linear
+/// edge, the load at stall. `wrdata` writes the probes to `out`.
+pub fn edge_deck(b: &crate::Built, switch: usize, out: &str) -> Result<EdgeDeck, String> {
+    let a = &b.analysis;
+    let c = &b.circuit;
+    let sp = c.parts.get(switch).ok_or("no such part")?;
+    if !sp.kind.is_switch() {
+        return Err(format!("`{}` is a {}, not a switch", sp.reference, sp.kind.name()));
+    }
+    let t = a
+        .turnoffs
+        .iter()
+        .filter(|t| t.switch == switch && t.mode == super::op::Mode::Stall)
+        .max_by(|x, y| x.v_peak.total_cmp(&y.v_peak))
+        .ok_or_else(|| format!("`{}` carries no load current that it switches off", sp.reference))?;
+    let grp = &a.groups[t.group];
+    let sol = &a.solutions[t.group];
+    let er = sol.edges.get(t.edge).ok_or("no edge")?;
+    let nl = &sol.nl;
+    let names = Names::new(c, nl, &grp.nets, &grp.parts);
+    let from = sol.states.get(er.from as usize).ok_or("no state")?;
+    let reset = vec![super::groups::PinState::HiZ; sol.n_pins];
+    let to = match er.to {
+        Some(i) => sol.states.get(i as usize).ok_or("no state")?,
+        None => &reset,
+    };
+    let high: Vec<f64> = (0..sol.n_pins)
+        .map(|j| super::solve::pin_level(nl, j as u32, Corner::Max))
+        .collect();
+    let delay: Vec<f64> = sol
+        .drives
+        .iter()
+        .map(|d| if d.partner.is_some() { d.deadtime } else { 0.0 })
+        .collect();
+    let sched = super::edges::schedule(
+        &super::edges::Command {
+            from,
+            to,
+            high: &high,
+            delay_rise: &delay,
+        },
+        0.0,
+    );
+    let on = sol.op(er.from as usize, Corner::Max, er.mode).ok_or("no operating point")?;
+    // a release to high-impedance is a switch opening in the deck: write
+    // it as a level held, then a piecewise-linear open is not possible,
+    // so such pins get a resistor to a switch controlled by a PWL source
+    let pins: Vec<Option<Vec<(f64, f64)>>> = sched
+        .pins
+        .iter()
+        .map(|p| match p {
+            super::transient::PinWave::Pwl(v) => Some(v.clone()),
+            super::transient::PinWave::Release(level, _) => Some(vec![(0.0, *level)]),
+            super::transient::PinWave::HiZ => None,
+        })
+        .collect();
+    let km = nl.elem_index(er.switch as usize, Role::Main).ok_or("no switch element")?;
+    let e = &nl.elems[km];
+    let polarity = match &e.dev {
+        Dev::Mos(m) => m.polarity,
+        Dev::Bjt(q) => q.polarity,
+        _ => 1.0,
+    };
+    let node = |n: Nd| {
+        let s = names.node(n);
+        if s == "0" { "0".to_string() } else { format!("v({s})") }
+    };
+    let main = match nl.elem_index(er.switch as usize, Role::SeriesR) {
+        Some(ks) if nl.elems[ks].t.get(1) == e.t.first() => nl.elems[ks].t[0],
+        _ => e.t[0],
+    };
+    let mut probes = vec![
+        format!("{}-{}", node(main), node(e.t[2])),
+        format!("{}-{}", node(e.t[1]), node(e.t[2])),
+        current_probe(&names, km).ok_or("no probe")?,
+    ];
+    let lk = er
+        .res
+        .load
+        .and_then(|l| nl.elem_index(l as usize, Role::Main));
+    if let Some(lk) = lk.and_then(|k| current_probe(&names, k)) {
+        probes.push(lk);
+    }
+    let t_stop = er.res.wave_off.t.last().copied().unwrap_or(1e-3);
+    let r = &er.res;
+    let mut expected = vec![
+        ("i0".to_string(), r.i0),
+        ("v_peak".to_string(), r.v_peak),
+        ("e_off".to_string(), r.e_off),
+        ("e_aval".to_string(), r.e_aval),
+    ];
+    if let Some(x) = r.t_off {
+        expected.push(("t_off".into(), x));
+    }
+    if let Some(x) = r.t_decay {
+        expected.push(("t_decay".into(), x));
+    }
+    for pe in &r.parts {
+        if let Some(&p) = grp.parts.get(pe.part as usize)
+            && matches!(c.part(p).kind, crate::model::Kind::Zener | crate::model::Kind::Tvs)
+        {
+            expected.push((format!("e_clamp({})", c.part(p).reference), pe.energy));
+        }
+    }
+    if sched.pins.iter().any(|p| matches!(p, super::transient::PinWave::Release(..))) {
+        return Err(format!(
+            "the turn-off of `{}` is a controller reset (its pins go high-impedance), which a deck cannot write as a source",
+            sp.reference
+        ));
+    }
+    let title = format!(
+        "armature: turn-off of {} ({}), from {}",
+        sp.reference,
+        c.file.name,
+        super::describe_state(c, grp, from)
+    );
+    let deck = tran_deck(
+        &title,
+        &names,
+        Corner::Max,
+        &pins,
+        &on.ex.emf,
+        t_stop,
+        (t_stop / 20000.0).max(1e-11),
+        &probes,
+        &expected,
+        out,
+    );
+    Ok(EdgeDeck {
+        deck,
+        polarity,
+        t_stop,
+        expected,
+    })
+}
+
+/// The deck of one operating point of a group, with every node of the
+/// group and the current of every load and switch as `* expected:` lines.
+pub fn state_deck(
+    b: &crate::Built,
+    group: usize,
+    state: usize,
+    corner: Corner,
+    mode: super::op::Mode,
+) -> Result<(String, Vec<(String, f64)>), String> {
+    let a = &b.analysis;
+    let c = &b.circuit;
+    let grp = a.groups.get(group).ok_or("no such group")?;
+    let sol = a.solutions.get(group).ok_or("no such group")?;
+    let nl = &sol.nl;
+    let o = sol.op(state, corner, mode).ok_or("no such state")?;
+    let names = Names::new(c, nl, &grp.nets, &grp.parts);
+    let mut exp = Vec::new();
+    for i in 0..grp.nets.len() {
+        exp.push((format!("v({})", names.node(Nd::Var(i as u32))), o.x[i]));
+    }
+    for k in 0..nl.elems.len() {
+        if let Some(p) = current_probe(&names, k) {
+            exp.push((p, super::newton::currents(nl, k, &o.x, &o.ex, None)[0]));
+        }
+    }
+    let title = format!(
+        "armature: operating point of {} with {}",
+        c.file.name,
+        sol.states
+            .get(state)
+            .map(|s| super::describe_state(c, grp, s))
+            .unwrap_or_default()
+    );
+    Ok((op_deck(&title, &names, corner, &o.ex.pins, &o.ex.emf, &exp), exp))
+}

@@ -581,9 +581,10 @@ fn export_spice(path: &Path, part: Option<&str>, common: &CommonArgs) -> i32 {
             }
         },
     };
-    match crate::analysis::spice_v1::deck(&b.circuit, &b.graph, &b.analysis, sw) {
+    let out = format!("{}.wave", crate::analysis::spice::sanitize(&b.circuit.part(sw).reference));
+    match crate::analysis::spice::edge_deck(&b, sw, &out) {
         Ok(d) => {
-            print!("{d}");
+            print!("{}", d.deck);
             0
         }
         Err(e) => {

@@ -18,6 +18,9 @@ pub const VBE_DEFAULT: f64 = 0.7;
 pub const VCE_SAT_DEFAULT: f64 = 0.2;
 /// Collector current rating when `ic_max` is not given (A) [memory].
 pub const IC_MAX_DEFAULT: f64 = 1.0;
+/// Collector-emitter capacitance when `coss` is not given: 10 pF, of the
+/// order of a small-signal transistor's output capacitance [memory].
+pub const COSS_DEFAULT: f64 = 10e-12;
 /// Reverse current gain (ngspice's default `BR`).
 pub const BR: f64 = 1.0;
 

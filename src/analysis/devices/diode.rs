@@ -101,6 +101,18 @@ impl Diode {
         (self.tt * i, self.tt * g)
     }
 
+    /// The junction's region: 0 blocking, 1 conducting forward, 2 in
+    /// breakdown (the events a transient steps carefully across).
+    pub fn region(&self, vd: f64) -> u8 {
+        if vd > 0.5 * self.vcrit.min(0.6) {
+            1
+        } else if self.bv.is_some() && vd < -self.xbv + 5.0 * self.vte {
+            2
+        } else {
+            0
+        }
+    }
+
     /// Junction limiting between Newton iterations, in breakdown too
     /// (ngspice `dioload`).
     pub fn limit(&self, vnew: f64, vold: f64) -> (f64, bool) {

@@ -154,6 +154,22 @@ impl Mosfet {
         }
     }
 
+    /// The channel's region: 0 off, 1 linear, 2 saturated (+3 reversed).
+    pub fn region(&self, vgs: f64, vds: f64) -> u8 {
+        let (vov, vds, base) = if vds >= 0.0 {
+            (vgs - self.vto, vds, 0)
+        } else {
+            (vgs - vds - self.vto, -vds, 3)
+        };
+        base + if vov <= 0.0 {
+            0
+        } else if vov > vds {
+            1
+        } else {
+            2
+        }
+    }
+
     /// Small-signal on-resistance at `V_GS` (device polarity) and
     /// `V_DS → 0`.
     pub fn r_on_at(&self, vgs: f64) -> f64 {

@@ -20,9 +20,17 @@ at every edge: current spikes, heat, noise — and, with enough of them, a
 failed leg.
 
 ## How it is computed
-Turn-off time = `td_off + tf` when given; otherwise the gate's RC
-discharge through the series resistance, `R·C·ln(V_drive / V_th)` with
-`C ≈ Qg / V_drive`. A pair with no `deadtime` has none.
+Each switch's turn-off is simulated on its control group (trapezoidal
+integration with the operating point's Newton loop at every step, the
+method of SPICE — Nagel 1975): the controller pin or driver output
+resistance, the gate resistors, pull-ups and pull-downs, level-shifter
+transistors and the switch's gate capacitances (fitted from `qg` and
+`qgd`) are all in the circuit, so a p-channel gate released through a
+pull-up turns off at the RC rate it really has. The turn-off time is from
+the pin's edge to the channel current falling below 10 % of its start,
+with the partner's rising edge delayed by the dead time, as a timer
+inserts it. Only a switch with no simulated edge falls back to
+`td_off + tf` from the library. A pair with no `deadtime` has none.
 
 ## Example
 ```
@@ -41,20 +49,14 @@ margin), or speed up turn-off (a lower gate resistance, a turn-off diode).
 
 pub const RULE: Rule = Rule { meta: &META, check };
 
+/// The turn-off time of a switch: simulated (`t_off`), else the
+/// library's `td_off + tf`.
 fn t_off(ctx: &Ctx, sw: usize) -> Option<f64> {
+    if let Some(t) = ctx.analysis.facts.value(sw, "t_off") {
+        return Some(t);
+    }
     let p = ctx.circuit.part(sw);
-    if let Some(tf) = p.num("tf") {
-        return Some(tf + p.num("td_off").unwrap_or(0.0));
-    }
-    let qg = p.num("qg")?;
-    let info = ctx.analysis.switches.get(&sw)?;
-    let vd = info.v_gs_on?;
-    let vth = p.num("vgs_th").unwrap_or(2.0);
-    if vd <= vth {
-        return None;
-    }
-    let r = crate::analysis::states::MCU_R_OUT + 100.0;
-    Some(r * (qg / vd) * (vd / vth).ln())
+    p.num("tf").map(|tf| tf + p.num("td_off").unwrap_or(0.0))
 }
 
 /// A complementary pair driving a leg with too little dead time.
@@ -67,6 +69,21 @@ pub struct Short<'a> {
 }
 
 pub fn detect<'a>(ctx: &'a Ctx) -> Vec<Short<'a>> {
+    use std::collections::HashMap;
+    // legs by the controller pins of their switches, indexed once
+    let mut by_pin: HashMap<&crate::analysis::CtlPin, Vec<&crate::analysis::Leg>> = HashMap::new();
+    let pins_of = |sw: usize| -> Vec<&crate::analysis::CtlPin> {
+        ctx.analysis
+            .switches
+            .get(&sw)
+            .map(|i| i.controls.iter().map(|(p, _)| p).collect())
+            .unwrap_or_default()
+    };
+    for leg in &ctx.analysis.legs {
+        for p in pins_of(leg.high) {
+            by_pin.entry(p).or_default().push(leg);
+        }
+    }
     let mut out = Vec::new();
     for d in &ctx.circuit.drives {
         let DriveKind::Pwm {
@@ -78,24 +95,18 @@ pub fn detect<'a>(ctx: &'a Ctx) -> Vec<Short<'a>> {
             continue;
         };
         let pins = [(d.part, d.pin.clone()), (*cp, cpin.clone())];
-        for leg in &ctx.analysis.legs {
-            let controlled = |sw: usize| {
-                ctx.analysis
-                    .switches
-                    .get(&sw)
-                    .is_some_and(|i| i.controls.iter().any(|(p, _)| pins.contains(p)))
-            };
-            if !(controlled(leg.high) && controlled(leg.low)) {
+        let mut legs: Vec<&crate::analysis::Leg> = pins.iter().flat_map(|p| by_pin.get(p).cloned().unwrap_or_default()).collect();
+        legs.sort_by_key(|l| (l.high, l.low));
+        legs.dedup_by_key(|l| (l.high, l.low));
+        for leg in legs {
+            let low_controlled = pins_of(leg.low).iter().any(|p| pins.contains(p));
+            if !low_controlled {
                 continue;
             }
             let (Some(th), Some(tl)) = (t_off(ctx, leg.high), t_off(ctx, leg.low)) else {
                 continue;
             };
-            let (slow, ts) = if th >= tl {
-                (leg.high, th)
-            } else {
-                (leg.low, tl)
-            };
+            let (slow, ts) = if th >= tl { (leg.high, th) } else { (leg.low, tl) };
             let dt = deadtime.unwrap_or(0.0);
             if dt < ts {
                 out.push(Short {
@@ -121,10 +132,15 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
                 ctx,
                 s.drive.span,
                 format!(
-                    "dead time {} is shorter than the {} turn-off time of `{}`",
+                    "dead time {} is shorter than the {} turn-off time of `{}`{}",
                     t(s.deadtime),
                     t(s.t_off),
-                    ref_of(ctx, s.slow)
+                    ref_of(ctx, s.slow),
+                    if ctx.analysis.facts.value(s.slow, "t_off").is_some() {
+                        " (simulated with its gate network)"
+                    } else {
+                        " (`td_off + tf` from the library)"
+                    }
                 ),
             )
             .label("dead time")

@@ -21,11 +21,15 @@ within microseconds, often short, and a firmware bug or a reset glitch is
 enough to get there.
 
 ## How it is computed
-Each switch's on-condition is solved over every high/low assignment of
-the pins of its control group, through level shifters, drivers and the
-switch's polarity (a p-channel high side is on when its gate is low).
-A leg where one assignment turns both on is reported with that
-assignment.
+Every high/low assignment of the pins of the leg's control group is
+solved as an operating point from the device models (rails at their
+maximum): gate networks, level shifters, drivers and each switch's
+polarity are in the solve, and nothing is assumed about where a source
+sits. A leg is reported when, in some assignment, more than 1 mA flows
+from the upper rail down through both switches to the lower one — with
+that assignment and the current. Two switches on one gate net, or a
+high-side n-channel that conducts as a source follower while its low
+side is on, are found this way.
 
 ## Example
 ```
@@ -46,26 +50,18 @@ with shoot-through protection, or gate logic that cannot turn both on.
 pub const RULE: Rule = Rule { meta: &META, check };
 
 /// Legs with a pin assignment that turns both switches on.
-pub fn detect<'a>(
-    ctx: &'a Ctx,
-) -> Vec<(
-    &'a crate::analysis::Leg,
-    &'a [(
-        crate::analysis::states::CtlPin,
-        crate::analysis::states::PinState,
-    )],
-)> {
+pub fn detect<'a>(ctx: &'a Ctx) -> Vec<(&'a crate::analysis::Leg, &'a [(crate::analysis::CtlPin, crate::analysis::PinState)], f64)> {
     ctx.analysis
         .legs
         .iter()
-        .filter_map(|l| l.both_on.as_deref().map(|a| (l, a)))
+        .filter_map(|l| l.both_on.as_ref().map(|(a, i)| (l, a.as_slice(), *i)))
         .collect()
 }
 
 fn check(ctx: &Ctx) -> Vec<Finding> {
     let c = ctx.circuit;
     let mut out = Vec::new();
-    for (leg, assign) in detect(ctx) {
+    for (leg, assign, through) in detect(ctx) {
         let states = assign
             .iter()
             .map(|((m, pin), s)| {
@@ -73,9 +69,9 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
                     "`{}.{pin}` {}",
                     ref_of(ctx, *m),
                     match s {
-                        crate::analysis::states::PinState::High => "high",
-                        crate::analysis::states::PinState::Low => "low",
-                        crate::analysis::states::PinState::HiZ => "open",
+                        crate::analysis::PinState::High => "high",
+                        crate::analysis::PinState::Low => "low",
+                        crate::analysis::PinState::HiZ => "open",
                     }
                 )
             })
@@ -102,9 +98,10 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
             leg.high,
             "on together with the low side",
             format!(
-                "`{}` and `{}` both conduct with {states}: `{}` shorts to `{}` through the leg at `{}`",
+                "`{}` and `{}` both conduct with {states}: {} flows from `{}` to `{}` through the leg at `{}`",
                 hp.reference,
                 lp.reference,
+                a(through),
                 names(hi_net),
                 names(lo_net),
                 c.net(leg.mid).name

@@ -20,9 +20,11 @@ capacitor the returned energy pumps the rail up: other parts on it see
 the overvoltage, and a battery charger or a regulator can latch up.
 
 ## How it is computed
-The freewheel path of least voltage is searched; if it crosses from a
-higher fixed net to a lower one (the supply absorbing), the rail must have
-a capacitor with one pin on it and the other on ground or another rail.
+The turn-off is simulated (and, for a bridge, the reset of the controller
+while the load runs); the energy each rail takes back is
+`−∫V_rail·I_rail dt` over the edge. A rail that takes more than 5 % of the
+energy stored in the load (`½·L·I²`) must have a capacitor with one pin
+on it and the other on ground or another rail.
 
 ## Example
 ```
@@ -54,32 +56,19 @@ fn has_cap(ctx: &Ctx, net: usize) -> bool {
 }
 
 /// A turn-off whose freewheel path pushes energy into an uncapacitated
-/// rail: (turn-off, path, rail, energy ½·L·I²).
-pub fn detect<'a>(
-    ctx: &'a Ctx,
-) -> Vec<(
-    &'a crate::analysis::TurnOff,
-    &'a crate::analysis::freewheel::Path,
-    usize,
-    f64,
-)> {
-    let c = ctx.circuit;
+/// rail: (turn-off, rail, energy returned).
+pub fn detect<'a>(ctx: &'a Ctx) -> Vec<(&'a crate::analysis::TurnOff, usize, f64)> {
     let mut out = Vec::new();
     let mut seen = std::collections::HashSet::new();
     let mut capped: std::collections::HashMap<usize, bool> = std::collections::HashMap::new();
     for tt in &ctx.analysis.turnoffs {
-        let Some(p) = &tt.path else { continue };
-        let Some((x, _y, hv)) = p.via_supply else {
-            continue;
-        };
-        if hv <= 0.0
-            || *capped.entry(x).or_insert_with(|| has_cap(ctx, x))
-            || !seen.insert((tt.load, x))
-        {
-            continue;
+        let Some(load) = tt.load else { continue };
+        for &(x, e) in &tt.rails {
+            if *capped.entry(x).or_insert_with(|| has_cap(ctx, x)) || !seen.insert((load, x)) {
+                continue;
+            }
+            out.push((tt, x, e));
         }
-        let l = c.part(tt.load).num("l").unwrap_or(0.0);
-        out.push((tt, p, x, 0.5 * l * tt.i0 * tt.i0));
     }
     out
 }
@@ -88,30 +77,32 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
     let c = ctx.circuit;
     detect(ctx)
         .into_iter()
-        .map(|(tt, p, x, e)| {
+        .filter_map(|(tt, x, e)| {
+            let load = tt.load?;
+            let through = tt.path.iter().map(|(q, _)| format!("`{}`", ref_of(ctx, *q))).collect::<Vec<_>>().join(", ");
             let mut f = on_part(
                 &META,
                 ctx,
-                tt.load,
+                load,
                 "returns its energy into the supply",
                 format!(
-                    "when `{}` turns off, `{}` returns {} into `{}` {}, and `{}` has no capacitor",
+                    "when `{}` turns off, `{}` returns {} into `{}`{}, and `{}` has no capacitor",
                     ref_of(ctx, tt.switch),
-                    ref_of(ctx, tt.load),
+                    ref_of(ctx, load),
                     crate::units::format_si(e, crate::units::Dimension::Energy),
                     c.net(x).name,
-                    p.describe(c),
+                    if through.is_empty() { String::new() } else { format!(" through {through}") },
                     c.net(x).name
                 ),
             );
-            for &q in &p.parts {
-                f = with_part(f, ctx, q, "on the freewheel path".into());
+            for (q, _) in &tt.path {
+                f = with_part(f, ctx, *q, "on the freewheel path".into());
             }
             f = f.related(c.net(x).span, "this rail");
-            f.help(format!(
+            Some(f.help(format!(
                 "add a bulk capacitor from `{}` to ground near the switches",
                 c.net(x).name
-            ))
+            )))
         })
         .collect()
 }

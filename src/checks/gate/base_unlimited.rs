@@ -54,7 +54,7 @@ pub fn detect(ctx: &Ctx) -> Vec<(usize, usize, usize)> {
         let driver = c.net(b).conns.iter().find(|(q, pin)| {
             let qp = c.part(*q);
             let name = qp.pins.get(*pin).map(|x| &*x.name).unwrap_or("");
-            (qp.kind == Kind::Mcu && !crate::analysis::states::is_supply_pin(name))
+            (qp.kind == Kind::Mcu && !crate::analysis::groups::is_supply_pin(name))
                 || (qp.kind == Kind::Driver && (name == "out" || name == "outb"))
         });
         if let Some(&(q, pin)) = driver {
@@ -89,7 +89,7 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
             _ => None,
         };
         let level = if qp.kind == Kind::Mcu {
-            crate::analysis::states::io_v(c, q)
+            crate::analysis::io_v(c, q)
         } else {
             5.0
         };

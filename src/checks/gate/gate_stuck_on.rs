@@ -102,7 +102,7 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
                         f,
                         ctx,
                         *m,
-                        format!("`{}.{pin}` swings only 0–{}", ref_of(ctx, *m), v(crate::analysis::states::io_v(c, *m))),
+                        format!("`{}.{pin}` swings only 0–{}", ref_of(ctx, *m), v(crate::analysis::io_v(c, *m))),
                     );
                 }
             }

@@ -26,7 +26,7 @@ pub fn rules() -> Vec<Rule> {
 pub fn pin_level(ctx: &Ctx, info: &crate::analysis::SwitchInfo) -> f64 {
     info.controls
         .iter()
-        .map(|((m, _), _)| crate::analysis::states::io_v(ctx.circuit, *m))
+        .map(|((m, _), _)| crate::analysis::io_v(ctx.circuit, *m))
         .fold(0.0f64, f64::max)
 }
 

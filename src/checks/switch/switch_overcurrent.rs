@@ -56,7 +56,9 @@ pub fn detect(ctx: &Ctx) -> Vec<Overcurrent> {
     let d = &ctx.settings.derating;
     let mut load_of = std::collections::HashMap::new();
     for t in &ctx.analysis.turnoffs {
-        load_of.entry(t.switch).or_insert(t.load);
+        if let Some(l) = t.load {
+            load_of.entry(t.switch).or_insert(l);
+        }
     }
     let mut out = Vec::new();
     for (i, p) in ctx.circuit.parts.iter().enumerate() {
