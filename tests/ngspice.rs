@@ -1,12 +1,24 @@
-//! Agreement with ngspice (Debian package `ngspice`): the decks that
-//! `export spice` writes are simulated, and the simulated on-state
-//! current and peak switch voltage are compared with `facts` (`i_on`
-//! within 3 %, `v_peak` within 5 %). With `CI` set and ngspice missing,
-//! these tests fail; elsewhere they are skipped with a note.
+//! Agreement with ngspice (Debian package `ngspice`). The engine writes
+//! each circuit as a deck with the same device models (`export spice`);
+//! ngspice solves it and the results are compared:
+//! - operating points (`.op`): every node voltage of the group within 1 %
+//!   (floor 1 mV) and every load, switch and diode current within 1 % of
+//!   its value, floor 1 % of the largest current in the group + 10 µA;
+//! - switching edges (`tran`, with `wrdata`): `v_peak`, `t_off`, `e_off`,
+//!   `t_decay`, each clamp part's energy and the switch's own avalanche
+//!   energy within 5 % (`t_off` within 5 % + 0.5 ns; energies below 0.1 %
+//!   of the load's stored energy are not compared), read from ngspice's
+//!   waveforms with the same reading functions the engine uses.
+//! With `CI` set and ngspice missing, these tests fail; elsewhere they are
+//! skipped with a note.
 
+use armature::analysis::edges;
+use armature::analysis::netlist::Corner;
+use armature::analysis::op::Mode;
+use armature::analysis::spice;
 use armature::model::library::LibraryCache;
-use armature::{Options, build, read_netlist};
-use std::path::Path;
+use armature::{Built, Options, build, read_netlist};
+use std::path::{Path, PathBuf};
 use std::process::Command;
 
 fn ngspice_available() -> bool {
@@ -23,16 +35,34 @@ fn ngspice_available() -> bool {
     ok
 }
 
-/// Run a deck; return the value of each `.meas`, failing on a failed one
-/// (ngspice exits 0 even then).
-fn run(deck: &str, tag: &str) -> Vec<(String, f64)> {
+fn scratch() -> PathBuf {
     let dir = std::env::temp_dir().join(format!("armature-spice-{}", std::process::id()));
     let _ = std::fs::create_dir_all(&dir);
-    let path = dir.join(format!("{tag}.cir"));
+    dir
+}
+
+fn built(file: &str) -> Built {
+    let f = match read_netlist(Path::new(file), file) {
+        Ok(f) => f,
+        Err(e) => panic!("{}", e.message),
+    };
+    match build(&f, &Options::default(), &LibraryCache::default()) {
+        Ok(b) => b,
+        Err(e) => panic!("{:?}", e.iter().map(|x| &x.message).collect::<Vec<_>>()),
+    }
+}
+
+fn ngspice(deck: &str, tag: &str) -> String {
+    let path = scratch().join(format!("{tag}.cir"));
     if let Err(e) = std::fs::write(&path, deck) {
         panic!("{e}");
     }
-    let out = match Command::new("ngspice").arg("-b").arg(&path).output() {
+    let out = match Command::new("ngspice")
+        .arg("-b")
+        .arg(&path)
+        .current_dir(scratch())
+        .output()
+    {
         Ok(o) => o,
         Err(e) => panic!("{e}"),
     };
@@ -41,126 +71,287 @@ fn run(deck: &str, tag: &str) -> Vec<(String, f64)> {
         String::from_utf8_lossy(&out.stdout),
         String::from_utf8_lossy(&out.stderr)
     );
-    assert!(!text.contains("failed"), "{tag}: a .meas failed:\n{text}");
-    let mut v = Vec::new();
-    for line in text.lines() {
-        let mut it = line.split('=');
-        if let (Some(k), Some(val)) = (it.next(), it.next()) {
-            let k = k.trim().to_lowercase();
-            if (k == "i_on" || k == "v_peak" || k.starts_with("v("))
-                && let Some(num) = val
-                    .split_whitespace()
-                    .next()
-                    .and_then(|x| x.parse::<f64>().ok())
-            {
-                v.push((k, num));
+    assert!(
+        !text.contains("rror") || text.contains("No. of Data Rows"),
+        "{tag}: ngspice failed:\n{text}"
+    );
+    text
+}
+
+/// `name = value` lines of an `op` run.
+fn printed(text: &str, name: &str) -> Option<f64> {
+    text.lines().find_map(|l| {
+        let (a, b) = l.split_once(" = ")?;
+        if a.trim().eq_ignore_ascii_case(name) {
+            b.split_whitespace().next()?.parse().ok()
+        } else {
+            None
+        }
+    })
+}
+
+/// Compare every operating point of the group holding `part` (every pin
+/// state, both corners, stalled and running) with ngspice `.op`.
+/// Returns the number of values compared.
+fn op_agrees(file: &str, part: &str) -> usize {
+    let b = built(file);
+    let Some(p) = b.circuit.part_id(part) else {
+        panic!("{file}: no {part}")
+    };
+    let Some(gi) = b.analysis.groups.iter().position(|g| g.parts.contains(&p)) else {
+        panic!("{file}: {part} in no group")
+    };
+    let sol = &b.analysis.solutions[gi];
+    let modes: &[Mode] = if sol.has_run {
+        &[Mode::Stall, Mode::Run]
+    } else {
+        &[Mode::Stall]
+    };
+    let mut n = 0;
+    for s in 0..sol.states.len() {
+        for corner in Corner::BOTH {
+            for &mode in modes {
+                let (deck, expected) = match spice::state_deck(&b, gi, s, corner, mode) {
+                    Ok(x) => x,
+                    Err(e) => panic!("{e}"),
+                };
+                let tag = format!(
+                    "{}_{part}_{s}_{}_{mode:?}",
+                    file.replace(['/', '.'], "_"),
+                    corner.name()
+                );
+                let text = ngspice(&deck, &tag);
+                let i_scale = expected
+                    .iter()
+                    .filter(|(k, _)| k.starts_with("i("))
+                    .map(|(_, v)| v.abs())
+                    .fold(0.0f64, f64::max);
+                for (k, ours) in &expected {
+                    let Some(sim) = printed(&text, k) else {
+                        panic!("{tag}: {k} not printed:\n{text}")
+                    };
+                    let floor = if k.starts_with("v(") {
+                        1e-3
+                    } else {
+                        0.01 * i_scale + 10e-6
+                    };
+                    assert!(
+                        (ours - sim).abs() <= 0.01 * sim.abs() + floor,
+                        "{tag}: {k} engine {ours:.6e} ngspice {sim:.6e}"
+                    );
+                    n += 1;
+                }
             }
         }
     }
-    v
+    n
 }
 
-fn compare(file: &str, part: &str) -> (f64, f64, f64, f64) {
-    let f = match read_netlist(Path::new(file), file) {
-        Ok(f) => f,
-        Err(e) => panic!("{}", e.message),
+/// The figures of a turn-off, read from ngspice's waveforms.
+struct Figures {
+    v_peak: f64,
+    t_off: Option<f64>,
+    e_off: f64,
+    t_decay: Option<f64>,
+    clamps: Vec<(String, f64)>,
+}
+
+fn edge_figures(file: &str, part: &str) -> (Vec<(String, f64)>, Figures) {
+    let b = built(file);
+    let Some(p) = b.circuit.part_id(part) else {
+        panic!("{file}: no {part}")
     };
-    let b = match build(&f, &Options::default(), &LibraryCache::default()) {
-        Ok(b) => b,
-        Err(e) => panic!("{:?}", e.iter().map(|x| &x.message).collect::<Vec<_>>()),
-    };
-    let Some(sw) = b.circuit.part_id(part) else {
-        panic!("{part}")
-    };
-    let deck = match armature::analysis::spice::deck(&b.circuit, &b.graph, &b.analysis, sw) {
+    let tag = format!("{}_{part}_edge", file.replace(['/', '.'], "_"));
+    let out = format!("{tag}.wave");
+    let d = match spice::edge_deck(&b, p, &out) {
         Ok(d) => d,
-        Err(e) => panic!("{e}"),
+        Err(e) => panic!("{file} {part}: {e}"),
     };
-    let meas = run(&deck, &format!("{}_{part}", file.replace(['/', '.'], "_")));
-    let get = |k: &str| {
-        meas.iter()
-            .find(|(n, _)| n == k)
-            .map(|x| x.1)
-            .unwrap_or(f64::NAN)
+    ngspice(&d.deck, &tag);
+    let data = match std::fs::read_to_string(scratch().join(&out)) {
+        Ok(t) => t,
+        Err(e) => panic!("{tag}: {e}"),
     };
-    let (i_sim, v_sim) = (get("i_on").abs(), get("v_peak"));
-    let i_fact = b.analysis.facts.value(sw, "i_on").unwrap_or(f64::NAN);
-    let v_fact = b.analysis.facts.value(sw, "v_peak").unwrap_or(f64::NAN);
-    eprintln!(
-        "{file} {part}: i_on {i_fact:.4} vs {i_sim:.4} A; v_peak {v_fact:.4} vs {v_sim:.4} V"
+    // wrdata: a time column before every probe
+    let rows: Vec<Vec<f64>> = data
+        .lines()
+        .map(|l| {
+            l.split_whitespace()
+                .filter_map(|x| x.parse().ok())
+                .collect()
+        })
+        .filter(|r: &Vec<f64>| !r.is_empty())
+        .collect();
+    let col = |k: usize| -> Vec<f64> {
+        rows.iter()
+            .map(|r| r.get(2 * k + 1).copied().unwrap_or(0.0))
+            .collect()
+    };
+    let t: Vec<f64> = rows
+        .iter()
+        .map(|r| r.first().copied().unwrap_or(0.0))
+        .collect();
+    let pol = d.polarity;
+    let vds: Vec<f64> = col(0).iter().map(|v| pol * v).collect();
+    let id: Vec<f64> = col(2).iter().map(|v| pol * v).collect();
+    let il = col(3);
+    let i0 = id.first().copied().unwrap_or(0.0);
+    let il0 = il.first().copied().unwrap_or(0.0);
+    let e_off = edges::integral(
+        &t,
+        &vds.iter().zip(&id).map(|(v, i)| v * i).collect::<Vec<_>>(),
     );
-    assert!(
-        ((i_fact - i_sim) / i_sim).abs() <= 0.03,
-        "{file} {part}: i_on {i_fact} vs simulated {i_sim}"
-    );
-    assert!(
-        ((v_fact - v_sim) / v_sim).abs() <= 0.05,
-        "{file} {part}: v_peak {v_fact} vs simulated {v_sim}"
-    );
-    (i_fact, i_sim, v_fact, v_sim)
-}
-
-#[test]
-fn samples_agree_with_ngspice() {
-    if !ngspice_available() {
-        return;
-    }
-    for (file, part) in [
-        ("samples/vent_fan.drive", "Q1"),
-        ("samples/irrigation_valve.drive", "Q2"),
-        ("samples/window_actuator.drive", "P1"),
-        ("samples/window_actuator.drive", "N1"),
-        ("samples/window_actuator.drive", "P2"),
-        ("samples/window_actuator.drive", "N2"),
-        ("samples/conveyor_driver.drive", "P5"),
-        ("samples/alarm_relay_faulty.drive", "Q5"),
-        ("samples/alarm_relay_faulty.drive", "Q6"),
-    ] {
-        compare(file, part);
-    }
-}
-
-#[test]
-fn check_circuits_agree_with_ngspice() {
-    if !ngspice_available() {
-        return;
-    }
-    // 12 V, 10 mH, 10 Ω check circuits (see the physics notes)
-    let (_, _, v, _) = compare("tests/fixtures/spice/diode_only.drive", "Q1");
-    assert!((v - 12.9).abs() < 0.2, "{v}"); // ngspice 39.3: 12.9 V peak
-    let (_, _, v, _) = compare("tests/fixtures/spice/diode_zener.drive", "Q1");
-    assert!((v - 37.8).abs() < 1.5, "{v}"); // ngspice 39.3: 37.8 V
-    let (_, _, v, _) = compare("tests/fixtures/spice/clamp_across_switch.drive", "Q1");
-    assert!((v - 40.6).abs() < 1.0, "{v}"); // ngspice 39.3: 40.6 V
-    let (_, _, v, _) = compare("tests/fixtures/spice/no_clamp.drive", "Q1");
-    assert!((v - 3768.0).abs() / 3768.0 < 0.01, "{v}"); // ngspice 39.3: 3768 V
-    compare("tests/fixtures/spice/high_side_pmos.drive", "P1");
-    compare("tests/fixtures/spice/sense_resistor.drive", "Q1");
-}
-
-#[test]
-fn dc_solver_agrees_with_ngspice_op() {
-    if !ngspice_available() {
-        return;
-    }
-    use armature::analysis::solve::Network;
-    // a resistor ladder from 12 V with a 5 V source behind 25 Ω
-    let mut n = Network::new(&[1, 2, 3], [(0, 12.0), (9, 0.0)]);
-    n.conductance(0, 1, 1.0 / 4700.0);
-    n.conductance(1, 2, 1.0 / 1000.0);
-    n.conductance(2, 9, 1.0 / 2200.0);
-    n.conductance(1, 3, 1.0 / 330.0);
-    n.source_to_ref(3, 5.0, 25.0);
-    let x = n.solve().unwrap_or_default();
-    let deck = "* ladder\nV0 n0 0 DC 12\nR1 n0 n1 4700\nR2 n1 n2 1000\nR3 n2 0 2200\nR4 n1 n3 330\nV5 s 0 DC 5\nR5 s n3 25\n.op\n.control\nop\nprint v(n1) v(n2) v(n3)\n.endc\n.end\n";
-    let meas = run(deck, "ladder");
-    for (k, idx) in [("v(n1)", 1usize), ("v(n2)", 2), ("v(n3)", 3)] {
-        let sim = meas
+    let mut clamps = Vec::new();
+    for (j, name) in d.clamps.iter().enumerate() {
+        let v = col(4 + 2 * j);
+        let i = col(5 + 2 * j);
+        // a junction's energy while it blocks or breaks down: −V·(−I)
+        let p: Vec<f64> = v
             .iter()
-            .find(|(n, _)| n == k)
-            .map(|x| x.1)
-            .unwrap_or(f64::NAN);
-        let ours = n.voltage(&x, idx).unwrap_or(f64::NAN);
-        assert!((ours - sim).abs() < 1e-4, "{k}: {ours} vs {sim}");
+            .zip(&i)
+            .map(|(v, i)| {
+                if name == "switch" && *v > 0.0 {
+                    0.0
+                } else {
+                    v * i
+                }
+            })
+            .collect();
+        clamps.push((name.clone(), edges::integral(&t, &p)));
     }
+    let f = Figures {
+        v_peak: vds.iter().copied().fold(f64::MIN, f64::max),
+        t_off: edges::first_below(&t, &id, 0.1 * i0.abs(), d.t_cmd).map(|x| x - d.t_cmd),
+        e_off,
+        t_decay: edges::first_below(&t, &il, 0.1 * il0.abs(), 0.0),
+        clamps,
+    };
+    (d.expected, f)
+}
+
+fn close(what: &str, ours: f64, sim: f64, tol: f64) {
+    assert!(
+        (ours - sim).abs() <= tol * sim.abs().max(1e-30),
+        "{what}: engine {ours:.5e} ngspice {sim:.5e} (tolerance {}%)",
+        tol * 100.0
+    );
+}
+
+/// Compare a turn-off's figures within 5 %; energies below 0.1 % of the
+/// energy stored in the load (`½·L·I²`) are not compared.
+fn edge_agrees(file: &str, part: &str) -> Vec<(String, f64)> {
+    let (exp, f) = edge_figures(file, part);
+    let get = |k: &str| exp.iter().find(|(n, _)| n == k).map(|x| x.1);
+    let what = format!("{file} {part}");
+    eprintln!("{what}: engine {exp:?}");
+    eprintln!(
+        "{what}: ngspice v_peak {:.5e} t_off {:?} e_off {:.5e} t_decay {:?} clamps {:?}",
+        f.v_peak, f.t_off, f.e_off, f.t_decay, f.clamps
+    );
+    close(
+        &format!("{what} v_peak"),
+        get("v_peak").unwrap_or(f64::NAN),
+        f.v_peak,
+        0.05,
+    );
+    if let (Some(a), Some(b)) = (get("t_off"), f.t_off) {
+        // 5 % + 0.5 ns: a quarter of the pin's 2 ns edge, the resolution of
+        // both simulations on a switch that turns off within the edge
+        assert!(
+            (a - b).abs() <= 0.05 * b.abs() + 0.5e-9,
+            "{what} t_off: engine {a:.5e} ngspice {b:.5e}"
+        );
+    } else {
+        assert_eq!(get("t_off").is_some(), f.t_off.is_some(), "{what} t_off");
+    }
+    if let (Some(a), Some(b)) = (get("t_decay"), f.t_decay) {
+        close(&format!("{what} t_decay"), a, b, 0.05);
+    }
+    let e_scale = get("e_load").unwrap_or(0.0);
+    if f.e_off.abs() > 1e-3 * e_scale {
+        close(
+            &format!("{what} e_off"),
+            get("e_off").unwrap_or(f64::NAN),
+            f.e_off,
+            0.05,
+        );
+    }
+    for (name, e) in &f.clamps {
+        let key = if name == "switch" {
+            "e_aval".to_string()
+        } else {
+            format!("e_clamp({name})")
+        };
+        if e.abs() > 1e-3 * e_scale {
+            close(
+                &format!("{what} {key}"),
+                get(&key).unwrap_or(f64::NAN),
+                *e,
+                0.05,
+            );
+        }
+    }
+    exp
+}
+
+#[test]
+fn operating_points_agree_with_ngspice_op() {
+    if !ngspice_available() {
+        return;
+    }
+    let mut total = 0;
+    for (file, part) in [
+        // low side, PWM, motor stalled and running against its back-EMF
+        ("samples/vent_fan.drive", "Q1"),
+        // p-channel high side behind an npn level shifter
+        ("tests/fixtures/spice/high_side_pmos.drive", "P1"),
+        // n-channel high side straight from a pin: a source follower
+        ("tests/fixtures/spice/nmos_follower.drive", "Q1"),
+        // a leg whose two switches share one gate net
+        ("tests/fixtures/spice/shared_gate_leg.drive", "QL"),
+        // two loads in parallel on one switch
+        ("tests/fixtures/spice/parallel_loads.drive", "Q1"),
+        // a source (sense) resistor
+        ("tests/fixtures/spice/sense_resistor.drive", "Q1"),
+        // a resistive heater
+        ("tests/fixtures/spice/heater.drive", "Q1"),
+        // a relay on a bipolar with a weak base resistor
+        ("tests/fixtures/spice/relay_bjt_weak.drive", "Q1"),
+        // a Zener-clamped valve
+        ("samples/irrigation_valve.drive", "Q2"),
+        // a full bridge in each allowed state
+        ("samples/window_actuator.drive", "N1"),
+        // a gate driver from its own rail, complementary half bridge
+        ("samples/conveyor_driver.drive", "N5"),
+        // a motor running against its back-EMF (and its stall)
+        ("tests/fixtures/spice/slow_diode_pwm.drive", "Q1"),
+    ] {
+        let n = op_agrees(file, part);
+        eprintln!("{file} {part}: {n} values within 1 %");
+        total += n;
+    }
+    eprintln!("operating points: {total} values compared");
+}
+
+#[test]
+fn edges_agree_with_ngspice_tran() {
+    if !ngspice_available() {
+        return;
+    }
+    // 12 V, 10 mH, 10 Ω check circuits of the physics notes
+    edge_agrees("tests/fixtures/spice/diode_only.drive", "Q1");
+    edge_agrees("tests/fixtures/spice/diode_zener.drive", "Q1");
+    edge_agrees("tests/fixtures/spice/zener_across_switch.drive", "Q1");
+    edge_agrees("tests/fixtures/spice/tvs_only.drive", "Q1");
+    // no clamp: the switch avalanches
+    edge_agrees("tests/fixtures/spice/no_clamp.drive", "Q1");
+    edge_agrees("tests/fixtures/spice/slow_diode_pwm.drive", "Q1");
+    edge_agrees("tests/fixtures/spice/big_gate_r.drive", "Q1");
+    edge_agrees("tests/fixtures/spice/pmos_pullup.drive", "P1");
+    // complementary half bridge with dead time
+    edge_agrees("samples/conveyor_driver.drive", "P5");
+    // a relay on a bipolar with no freewheel path: the transistor breaks down
+    edge_agrees("samples/alarm_relay_faulty.drive", "Q5");
+    edge_agrees("tests/fixtures/spice/clamp_across_switch.drive", "Q1");
+    edge_agrees("samples/vent_fan.drive", "Q1");
 }

@@ -79,7 +79,7 @@ fn mutations_of_every_channel_fire_the_expected_rule() {
         let lines: Vec<&str> = text.lines().collect();
         let mut diodes = Vec::new();
         for t in &b.analysis.turnoffs {
-            for &d in t.path.iter().flat_map(|p| p.parts.iter()) {
+            for &(d, _) in &t.path {
                 if c.part(d).kind == Kind::Diode && !diodes.contains(&d) {
                     diodes.push(d);
                 }

@@ -53,6 +53,8 @@ pub struct EdgeResult {
     pub load: Option<u32>,
     pub il0: f64,
     pub v_peak: f64,
+    /// When the switch's own command starts.
+    pub t_cmd: f64,
     pub t_off: Option<f64>,
     pub t_decay: Option<f64>,
     pub e_off: f64,
@@ -214,7 +216,9 @@ impl Acc {
             }
         }
         if std::env::var_os("ARMATURE_TRACE_ACC").is_some() {
-            let cur: Vec<String> = (0..nl.elems.len()).map(|k| format!("{:.3e}", s.currents(k)[0])).collect();
+            let cur: Vec<String> = (0..nl.elems.len())
+                .map(|k| format!("{:.3e}", s.currents(k)[0]))
+                .collect();
             eprintln!("{:.6e} {}", s.t, cur.join(" "));
         }
         for k in 0..nl.elems.len() {
@@ -390,7 +394,11 @@ pub fn simulate(spec: &EdgeSpec) -> EdgeResult {
         })
         .fold(0.0f64, f64::max);
     let t_cap = (30.0 * tau).clamp(20e-6, 2.0);
-    let period = if spec.f_pwm > 0.0 { 1.0 / spec.f_pwm } else { 0.0 };
+    let period = if spec.f_pwm > 0.0 {
+        1.0 / spec.f_pwm
+    } else {
+        0.0
+    };
     let t_snap = period * (1.0 - spec.duty_max).max(0.0);
     let sched = schedule(&spec.off_cmd, 0.0);
     // the turn-on starts after every pin of the turn-off has moved (the
@@ -405,14 +413,18 @@ pub fn simulate(spec: &EdgeSpec) -> EdgeResult {
         wave.vds.push(probe.vds(nl, s));
         wave.vgs.push(probe.vgs(nl, s));
         wave.id.push(probe.ich(s));
-        wave.il.push(probe.main_load.map_or(0.0, |k| s.currents(k)[0]));
+        wave.il
+            .push(probe.main_load.map_or(0.0, |k| s.currents(k)[0]));
         acc.add(nl, s);
         for (p, v) in clamp_i.iter_mut().enumerate() {
             if p as u32 == probe.switch {
                 continue;
             }
             if let Some(k) = nl.elem_index(p, Role::Main) {
-                if matches!(nl.elems[k].dev, Dev::Diode(_) | Dev::Res { .. } | Dev::Mos(_)) {
+                if matches!(
+                    nl.elems[k].dev,
+                    Dev::Diode(_) | Dev::Res { .. } | Dev::Mos(_)
+                ) {
                     let mut i = s.currents(k)[0];
                     if let Some(kb) = nl.elem_index(p, Role::Body) {
                         i -= s.currents(kb)[0];
@@ -433,7 +445,10 @@ pub fn simulate(spec: &EdgeSpec) -> EdgeResult {
     };
     let decayed = |w: &Wave| -> bool {
         let n = w.t.len();
-        n > 2 && w.il.last().is_none_or(|i| i.abs() < 0.02 * il0.abs().max(1e-9))
+        n > 2
+            && w.il
+                .last()
+                .is_none_or(|i| i.abs() < 0.02 * il0.abs().max(1e-9))
     };
     // first part: until the turn-on may start
     let mut on_start: Option<Sim> = None;
@@ -461,6 +476,7 @@ pub fn simulate(spec: &EdgeSpec) -> EdgeResult {
     res.failed = stop_err;
     res.v_peak = wave.vds.iter().copied().fold(f64::MIN, f64::max);
     let t_cmd = command_time(&spec.off_cmd, spec.ctl);
+    res.t_cmd = t_cmd;
     res.t_off = first_below(&wave.t, &wave.id, 0.1 * i0.abs(), t_cmd).map(|t| t - t_cmd);
     res.t_decay = first_below(&wave.t, &wave.il, 0.1 * il0.abs(), 0.0);
     res.e_off = acc.e[km];
@@ -495,7 +511,12 @@ pub fn simulate(spec: &EdgeSpec) -> EdgeResult {
         .into_iter()
         .filter(|x| x.part as usize != sw && (x.energy.abs() > 0.0 || x.charge > 0.0))
         .collect();
-    res.rail_energy = acc.rail.iter().enumerate().map(|(j, e)| (j as u32, *e)).collect();
+    res.rail_energy = acc
+        .rail
+        .iter()
+        .enumerate()
+        .map(|(j, e)| (j as u32, *e))
+        .collect();
     // the freewheel part whose current the plot shows
     let best = res
         .parts
@@ -547,7 +568,9 @@ pub fn simulate(spec: &EdgeSpec) -> EdgeResult {
     let t_end = t_start + span;
     let on_vds = pol
         * (spec.on.v(nl.elems[km].t[0])
-            - spec.on.v(*nl.elems[km].t.last().unwrap_or(&nl.elems[km].t[0])));
+            - spec
+                .on
+                .v(*nl.elems[km].t.last().unwrap_or(&nl.elems[km].t[0])));
     let r = on_sim.run(&sched_on, t_end, (span / 200.0).max(1e-9), &mut |s| {
         let vds = probe.vds(nl, s);
         let ich = probe.ich(s);
@@ -567,7 +590,9 @@ pub fn simulate(spec: &EdgeSpec) -> EdgeResult {
         // settled: the channel carries the load and blocks no more
         let settled = s.t > t_start + 20.0 * PIN_EDGE
             && vds.abs() < 2.0 * on_vds.abs() + 0.05
-            && diodes.iter().all(|&(_, k)| s.currents(k)[0] > -1e-3 * i0.abs().max(1e-3));
+            && diodes
+                .iter()
+                .all(|&(_, k)| s.currents(k)[0] > -1e-3 * i0.abs().max(1e-3));
         !settled
     });
     if let Err(e) = r {
@@ -576,12 +601,11 @@ pub fn simulate(spec: &EdgeSpec) -> EdgeResult {
     let i_final = w.id.last().copied().unwrap_or(0.0);
     let t_cmd_on = command_time(&back, spec.ctl);
     res.t_on = first_above(&w.t, &w.id, 0.9 * i_final.abs(), t_cmd_on).map(|t| t - t_cmd_on);
-    let over: Vec<f64> = w
-        .id
-        .iter()
-        .zip(&w.vds)
-        .map(|(i, v)| v * (i.abs() - i_final.abs()).max(0.0))
-        .collect();
+    let over: Vec<f64> =
+        w.id.iter()
+            .zip(&w.vds)
+            .map(|(i, v)| v * (i.abs() - i_final.abs()).max(0.0))
+            .collect();
     res.e_rr = integral(&w.t, &over);
     res.e_on = (e_tot - res.e_rr).max(0.0);
     res.i_rr = diodes

@@ -206,7 +206,8 @@ fn pin_drives(c: &Circuit, grp: &Group) -> Vec<solve::PinDrive> {
             let (d, inverted) = match own {
                 Some(d) => (Some(d), false),
                 None => (
-                    c.complement_of(*m, name).and_then(|o| c.drive_of(o.0, &o.1)),
+                    c.complement_of(*m, name)
+                        .and_then(|o| c.drive_of(o.0, &o.1)),
                     true,
                 ),
             };
@@ -296,11 +297,7 @@ pub fn analyze_with(c: &Circuit, g: &CircuitGraph, s: &Settings, reuse: bool) ->
         .into_par_iter()
         .map(|job| match job {
             Some((nl, d, r)) => Arc::new(solve::solve(nl, &d, &r)),
-            None => Arc::new(solve::solve(
-                netlist::build(c, &Group::default()),
-                &[],
-                &[],
-            )),
+            None => Arc::new(solve::solve(netlist::build(c, &Group::default()), &[], &[])),
         })
         .collect();
     a.distinct_groups = solved.len();
@@ -384,7 +381,7 @@ fn read_group(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution) -> Group
         truncated: sol.truncated,
         ..GroupAcc::default()
     };
-    
+
     // extremes of every net over every solved point
     let mut ext: Vec<Option<(f64, f64)>> = vec![None; grp.nets.len()];
     for ops in &sol.ops {
@@ -417,7 +414,11 @@ fn read_group(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution) -> Group
     if let Some(&(s, corner, mode)) = failed.first()
         && let Some(&p) = grp.parts.first()
     {
-        let st = sol.states.get(s).map(|x| describe_state(c, grp, x)).unwrap_or_default();
+        let st = sol
+            .states
+            .get(s)
+            .map(|x| describe_state(c, grp, x))
+            .unwrap_or_default();
         a.notes.push(
             Finding::new(
                 "analysis-nonconvergent",
@@ -492,7 +493,10 @@ fn read_switches(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &m
         for s in 0..sol.states.len() {
             let reset = sol.is_reset(s);
             if let Some(pt) = point(ls, s, Corner::Max) {
-                info.v_gs_abs_max = Some(info.v_gs_abs_max.map_or(pt.v_gs.abs(), |m: f64| m.max(pt.v_gs.abs())));
+                info.v_gs_abs_max = Some(
+                    info.v_gs_abs_max
+                        .map_or(pt.v_gs.abs(), |m: f64| m.max(pt.v_gs.abs())),
+                );
                 if reset {
                     info.reset_on = pt.gated;
                 } else if pt.gated {
@@ -526,14 +530,11 @@ fn read_switches(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &m
         }
         // PWM of the controlling pins
         for (pin, inv) in &info.controls {
-            let d = c
-                .drive_of(pin.0, &pin.1)
-                .map(|d| (d, false))
-                .or_else(|| {
-                    c.complement_of(pin.0, &pin.1)
-                        .and_then(|o| c.drive_of(o.0, &o.1))
-                        .map(|d| (d, true))
-                });
+            let d = c.drive_of(pin.0, &pin.1).map(|d| (d, false)).or_else(|| {
+                c.complement_of(pin.0, &pin.1)
+                    .and_then(|o| c.drive_of(o.0, &o.1))
+                    .map(|d| (d, true))
+            });
             if let Some((d, flipped)) = d
                 && let DriveKind::Pwm {
                     freq,
@@ -556,7 +557,9 @@ fn read_switches(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &m
         }
         // the largest current out of a controlling pin
         for (k, e) in nl.elems.iter().enumerate() {
-            let Dev::Pin { pin, .. } = e.dev else { continue };
+            let Dev::Pin { pin, .. } = e.dev else {
+                continue;
+            };
             let Some(cp) = grp.pins.get(pin as usize) else {
                 continue;
             };
@@ -580,7 +583,9 @@ fn read_switches(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &m
             .iter()
             .filter(|e| e.part != ls.part)
             .filter_map(|e| match (&e.dev, e.role) {
-                (Dev::Mos(_) | Dev::Bjt(_), Role::Main) | (Dev::Drv { .. }, _) => e.t.get(1).copied(),
+                (Dev::Mos(_) | Dev::Bjt(_), Role::Main) | (Dev::Drv { .. }, _) => {
+                    e.t.get(1).copied()
+                }
                 _ => None,
             })
             .collect();
@@ -590,11 +595,18 @@ fn read_switches(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &m
                 ends.push(nl.elems[ks].t[0]);
             }
             info.gate_stage = ends.iter().any(|&n| {
-                matches!(n, Nd::Var(_)) && control_nodes.iter().any(|&g| g == n || connected_by_resistors(nl, n, g))
+                matches!(n, Nd::Var(_))
+                    && control_nodes
+                        .iter()
+                        .any(|&g| g == n || connected_by_resistors(nl, n, g))
             });
         }
         let f = &mut a.facts;
-        let drive_name = if p.kind.is_bipolar() { "base-emitter" } else { "gate" };
+        let drive_name = if p.kind.is_bipolar() {
+            "base-emitter"
+        } else {
+            "gate"
+        };
         match info.v_gs_on.or(info.v_gs_best) {
             Some(v) => f.set(
                 pid,
@@ -615,9 +627,23 @@ fn read_switches(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &m
                 .and_then(|b| sol.states.get(b as usize))
                 .map(|x| describe_state(c, grp, x))
                 .unwrap_or_default();
-            f.set(pid, "i_on", ls.i_max, Current, Some(format!("largest current, motors stalled, rails at their maximum, with {st}")));
+            f.set(
+                pid,
+                "i_on",
+                ls.i_max,
+                Current,
+                Some(format!(
+                    "largest current, motors stalled, rails at their maximum, with {st}"
+                )),
+            );
             if let Some(pt) = ls.best.and_then(|b| point(ls, b as usize, Corner::Max)) {
-                f.set(pid, "v_ds_on", pt.v_ds, Voltage, Some(format!("{} at that point", pt.region.name())));
+                f.set(
+                    pid,
+                    "v_ds_on",
+                    pt.v_ds,
+                    Voltage,
+                    Some(format!("{} at that point", pt.region.name())),
+                );
             }
         }
         if let Some(rp) = ls.run_point {
@@ -637,8 +663,10 @@ fn read_switches(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &m
                 if sol.is_reset(s) {
                     continue;
                 }
-                if let (Some(pt), Some(o)) = (point(ls, s, Corner::Min), sol.op(s, Corner::Min, Mode::Stall))
-                    && pt.region != Region::Off
+                if let (Some(pt), Some(o)) = (
+                    point(ls, s, Corner::Min),
+                    sol.op(s, Corner::Min, Mode::Stall),
+                ) && pt.region != Region::Off
                 {
                     let ib = newton::currents(nl, kb, &o.x, &o.ex, None)[1].abs();
                     lo = Some(lo.map_or(ib, |m| m.min(ib)));
@@ -652,7 +680,13 @@ fn read_switches(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &m
                 f.set(pid, "i_b", lo, Current, Some("lowest base current in the states where it conducts, rails at their minimum".into()));
             }
             if let Some(hi) = hi {
-                f.set(pid, "i_b_max", hi, Current, Some("largest base current, rails at their maximum".into()));
+                f.set(
+                    pid,
+                    "i_b_max",
+                    hi,
+                    Current,
+                    Some("largest base current, rails at their maximum".into()),
+                );
             }
         }
         f.set(pid, "f_pwm", info.f_pwm, Frequency, None);
@@ -664,7 +698,9 @@ fn read_switches(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &m
 fn read_loads(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut GroupAcc) {
     let nl = &sol.nl;
     for (k, e) in nl.elems.iter().enumerate() {
-        let Dev::Load { r, l, emf } = e.dev else { continue };
+        let Dev::Load { r, l, emf } = e.dev else {
+            continue;
+        };
         let Some(&lid) = grp.parts.get(e.part as usize) else {
             continue;
         };
@@ -687,7 +723,11 @@ fn read_loads(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut 
             }
         }
         let Some((bs, il)) = best.filter(|b| b.1.abs() > 1e-6) else {
-            a.facts.missing(lid, "i_stall", "no pin state drives a current through the load");
+            a.facts.missing(
+                lid,
+                "i_stall",
+                "no pin state drives a current through the load",
+            );
             continue;
         };
         let i_stall = il.abs();
@@ -699,13 +739,26 @@ fn read_loads(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut 
             Current,
             Some(format!(
                 "operating point at stall, rails at their maximum{}",
-                if supply > 0.0 { format!(" ({})", format_si(supply, Voltage)) } else { String::new() }
+                if supply > 0.0 {
+                    format!(" ({})", format_si(supply, Voltage))
+                } else {
+                    String::new()
+                }
             )),
         );
         let (i_cont, cont_note) = match lp.num("i_rated") {
-            Some(i) if emf > 0.0 => (run_max.max(i.min(i_stall)), format!("running against its back-EMF {} (from `i_rated`)", format_si(emf, Voltage))),
+            Some(i) if emf > 0.0 => (
+                run_max.max(i.min(i_stall)),
+                format!(
+                    "running against its back-EMF {} (from `i_rated`)",
+                    format_si(emf, Voltage)
+                ),
+            ),
             Some(i) => (i, "given `i_rated`".to_string()),
-            None => (i_stall, "no `i_rated`: the stall current is used".to_string()),
+            None => (
+                i_stall,
+                "no `i_rated`: the stall current is used".to_string(),
+            ),
         };
         a.facts.set(lid, "i_cont", i_cont, Current, Some(cont_note));
         // the switches that carry it
@@ -726,12 +779,18 @@ fn read_loads(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut 
             if !matches!(d.dev, Dev::Diode(_)) || d.role != Role::Main {
                 continue;
             }
-            let Some(&dp) = grp.parts.get(d.part as usize) else { continue };
+            let Some(&dp) = grp.parts.get(d.part as usize) else {
+                continue;
+            };
             let dpart = c.part(dp);
             if !dpart.kind.is_diode() {
                 continue;
             }
-            let pins: Vec<Nd> = nl.elems_of(d.part as usize).iter().flat_map(|x| x.t.iter().copied()).collect();
+            let pins: Vec<Nd> = nl
+                .elems_of(d.part as usize)
+                .iter()
+                .flat_map(|x| x.t.iter().copied())
+                .collect();
             let switched = |n: Nd| (n == np || n == nm) && matches!(n, Nd::Var(_));
             if !pins.iter().any(|&n| switched(n)) {
                 continue;
@@ -741,7 +800,9 @@ fn read_loads(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut 
                 if sol.is_reset(s) {
                     continue;
                 }
-                let Some(o) = sol.op(s, Corner::Max, Mode::Stall) else { continue };
+                let Some(o) = sol.op(s, Corner::Max, Mode::Stall) else {
+                    continue;
+                };
                 if newton::currents(nl, k, &o.x, &o.ex, None)[0].abs() > 0.1 * i_stall {
                     let id = newton::currents(nl, kd, &o.x, &o.ex, None)[0];
                     if id > 1e-3 {
@@ -755,7 +816,12 @@ fn read_loads(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut 
         }
         let (f_pwm, duty_max) = switches
             .iter()
-            .filter_map(|q| a.switches.iter().find(|(p, _)| p == q).map(|(_, i)| (i.f_pwm, i.duty_max)))
+            .filter_map(|q| {
+                a.switches
+                    .iter()
+                    .find(|(p, _)| p == q)
+                    .map(|(_, i)| (i.f_pwm, i.duty_max))
+            })
             .fold((0.0f64, 1.0f64), |acc, x| if x.0 > acc.0 { x } else { acc });
         a.facts.set(lid, "f_pwm", f_pwm, Frequency, None);
         if f_pwm > 0.0 && l > 0.0 {
@@ -775,7 +841,11 @@ fn read_loads(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut 
                 Some(format!(
                     "at duty {}, {}",
                     crate::units::percent(duty_max),
-                    if emf > 0.0 { format!("running (back-EMF {})", format_si(emf, Voltage)) } else { "stalled".into() }
+                    if emf > 0.0 {
+                        format!("running (back-EMF {})", format_si(emf, Voltage))
+                    } else {
+                        "stalled".into()
+                    }
                 )),
             );
         }
@@ -803,14 +873,19 @@ fn supply_of(c: &Circuit, pid: PartId) -> f64 {
     if own > 0.0 {
         own
     } else {
-        c.nets.iter().filter_map(|n| n.fixed_max()).fold(0.0f64, |a, b| a.max(b.abs()))
+        c.nets
+            .iter()
+            .filter_map(|n| n.fixed_max())
+            .fold(0.0f64, |a, b| a.max(b.abs()))
     }
 }
 
 fn read_edges(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut GroupAcc) {
     let nl = &sol.nl;
     for (ei, er) in sol.edges.iter().enumerate() {
-        let Some(&q) = grp.parts.get(er.switch as usize) else { continue };
+        let Some(&q) = grp.parts.get(er.switch as usize) else {
+            continue;
+        };
         let r = &er.res;
         let load = r.load.and_then(|p| grp.parts.get(p as usize).copied());
         // stored energy and charge of the loads
@@ -827,7 +902,10 @@ fn read_edges(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut 
                 }
             }
         }
-        let is_load = |p: u32| nl.elem_index(p as usize, Role::Main).is_some_and(|k| matches!(nl.elems[k].dev, Dev::Load { .. }));
+        let is_load = |p: u32| {
+            nl.elem_index(p as usize, Role::Main)
+                .is_some_and(|k| matches!(nl.elems[k].dev, Dev::Load { .. }))
+        };
         let path: Vec<(PartId, f64)> = r
             .parts
             .iter()
@@ -840,7 +918,9 @@ fn read_edges(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut 
             .filter(|(_, en)| *en > 0.05 * e_load && e_load > 0.0)
             .filter_map(|&(j, en)| {
                 let f = nl.fixed.get(j as usize)?;
-                (f.net < c.nets.len() && matches!(c.net(f.net).kind, crate::model::NetKind::Rail(_))).then_some((f.net, en))
+                (f.net < c.nets.len()
+                    && matches!(c.net(f.net).kind, crate::model::NetKind::Rail(_)))
+                .then_some((f.net, en))
             })
             .collect();
         let avalanche = q_load > 0.0 && r.q_aval >= 0.2 * q_load;
@@ -870,16 +950,32 @@ fn read_edges(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut 
             EdgeKind::Reset => "simulated reset while it conducts",
         };
         if f.value(q, "v_peak").is_none_or(|v| t.v_peak > v) {
-            f.set(q, "v_peak", t.v_peak, Voltage, Some(format!("{how}, motors stalled, rails at their maximum")));
+            f.set(
+                q,
+                "v_peak",
+                t.v_peak,
+                Voltage,
+                Some(format!("{how}, motors stalled, rails at their maximum")),
+            );
         }
         if er.mode == Mode::Stall && er.kind == EdgeKind::Toggle {
             if let Some(td) = t.t_decay {
-                f.set(q, "t_decay", td, Time, Some("load current to 10 % of its start after the turn-off".into()));
+                f.set(
+                    q,
+                    "t_decay",
+                    td,
+                    Time,
+                    Some("load current to 10 % of its start after the turn-off".into()),
+                );
             }
             let e_cl: f64 = r
                 .parts
                 .iter()
-                .filter(|x| grp.parts.get(x.part as usize).is_some_and(|&p| matches!(c.part(p).kind, Kind::Zener | Kind::Tvs)))
+                .filter(|x| {
+                    grp.parts
+                        .get(x.part as usize)
+                        .is_some_and(|&p| matches!(c.part(p).kind, Kind::Zener | Kind::Tvs))
+                })
                 .map(|x| x.energy)
                 .sum::<f64>()
                 + r.e_aval;
@@ -891,29 +987,88 @@ fn read_edges(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut 
                 f.set(q, "t_off", x, Time, Some("gate command to channel current below 10 %, simulated with the gate network".into()));
             }
             if let Some(x) = r.t_on {
-                f.set(q, "t_on", x, Time, Some("gate command to channel current at 90 %, simulated".into()));
+                f.set(
+                    q,
+                    "t_on",
+                    x,
+                    Time,
+                    Some("gate command to channel current at 90 %, simulated".into()),
+                );
             }
-            f.set(q, "e_off", r.e_off, Energy, Some("∫V_DS·I_D dt over the simulated turn-off".into()));
-            f.set(q, "e_on", r.e_on, Energy, Some("∫V_DS·I_D dt over the simulated turn-on, less e_rr".into()));
-            f.set(q, "e_rr", r.e_rr, Energy, Some("∫V_DS·(I_D − I_final) dt: the freewheel path's recovery current in the switch".into()));
-            f.set(q, "e_aval", r.e_aval, Energy, Some("energy in the switch's own breakdown at turn-off".into()));
+            f.set(
+                q,
+                "e_off",
+                r.e_off,
+                Energy,
+                Some("∫V_DS·I_D dt over the simulated turn-off".into()),
+            );
+            f.set(
+                q,
+                "e_on",
+                r.e_on,
+                Energy,
+                Some("∫V_DS·I_D dt over the simulated turn-on, less e_rr".into()),
+            );
+            f.set(
+                q,
+                "e_rr",
+                r.e_rr,
+                Energy,
+                Some(
+                    "∫V_DS·(I_D − I_final) dt: the freewheel path's recovery current in the switch"
+                        .into(),
+                ),
+            );
+            f.set(
+                q,
+                "e_aval",
+                r.e_aval,
+                Energy,
+                Some("energy in the switch's own breakdown at turn-off".into()),
+            );
         }
         // clamp parts and freewheel diodes
         for x in &r.parts {
-            let Some(&dp) = grp.parts.get(x.part as usize) else { continue };
+            let Some(&dp) = grp.parts.get(x.part as usize) else {
+                continue;
+            };
             let kind = c.part(dp).kind;
             if !kind.is_diode() || x.charge < 0.2 * q_load.max(1e-30) {
                 continue;
             }
-            let fsw = a.switches.iter().find(|(p, _)| *p == q).map(|(_, i)| (i.f_pwm, i.duty_min)).unwrap_or((0.0, 1.0));
+            let fsw = a
+                .switches
+                .iter()
+                .find(|(p, _)| *p == q)
+                .map(|(_, i)| (i.f_pwm, i.duty_min))
+                .unwrap_or((0.0, 1.0));
             if matches!(kind, Kind::Zener | Kind::Tvs) && er.kind == EdgeKind::Toggle {
                 if er.mode == Mode::Stall && f.value(dp, "e_clamp").is_none_or(|v| x.energy > v) {
-                    f.set(dp, "e_clamp", x.energy, Energy, Some(format!("absorbed at one turn-off of `{}`, stalled", c.part(q).reference)));
+                    f.set(
+                        dp,
+                        "e_clamp",
+                        x.energy,
+                        Energy,
+                        Some(format!(
+                            "absorbed at one turn-off of `{}`, stalled",
+                            c.part(q).reference
+                        )),
+                    );
                 }
                 if er.mode == last_mode && fsw.0 > 0.0 {
                     let pw = x.energy * fsw.0;
                     if f.value(dp, "p_clamp").is_none_or(|v| pw > v) {
-                        f.set(dp, "p_clamp", pw, Power, Some(format!("e_clamp·f_pwm at the turn-off of `{}` ({})", c.part(q).reference, format_si(fsw.0, Frequency))));
+                        f.set(
+                            dp,
+                            "p_clamp",
+                            pw,
+                            Power,
+                            Some(format!(
+                                "e_clamp·f_pwm at the turn-off of `{}` ({})",
+                                c.part(q).reference,
+                                format_si(fsw.0, Frequency)
+                            )),
+                        );
                     }
                 }
             }
@@ -921,20 +1076,48 @@ fn read_edges(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut 
                 if er.mode == last_mode {
                     let prev = f.value(dp, "i_fw").unwrap_or(0.0);
                     if x.i_peak > prev {
-                        f.set(dp, "i_fw", x.i_peak, Current, Some(format!("current it takes over when `{}` turns off", c.part(q).reference)));
-                        let avg = if fsw.0 > 0.0 { x.i_peak * (1.0 - fsw.1) } else { x.i_peak };
-                        f.set(dp, "i_avg", avg, Current, Some(if fsw.0 > 0.0 {
-                            format!("i_fw over the off-time at the smallest duty {}", crate::units::percent(fsw.1))
+                        f.set(
+                            dp,
+                            "i_fw",
+                            x.i_peak,
+                            Current,
+                            Some(format!(
+                                "current it takes over when `{}` turns off",
+                                c.part(q).reference
+                            )),
+                        );
+                        let avg = if fsw.0 > 0.0 {
+                            x.i_peak * (1.0 - fsw.1)
                         } else {
-                            "i_fw: a static drive can leave the load freewheeling".to_string()
-                        }));
+                            x.i_peak
+                        };
+                        f.set(
+                            dp,
+                            "i_avg",
+                            avg,
+                            Current,
+                            Some(if fsw.0 > 0.0 {
+                                format!(
+                                    "i_fw over the off-time at the smallest duty {}",
+                                    crate::units::percent(fsw.1)
+                                )
+                            } else {
+                                "i_fw: a static drive can leave the load freewheeling".to_string()
+                            }),
+                        );
                     }
                     let fp = f.value(dp, "f_pwm").unwrap_or(0.0);
                     f.set(dp, "f_pwm", fp.max(fsw.0), Frequency, None);
                 }
                 if er.mode == Mode::Stall {
                     let prev = f.value(dp, "i_fw_peak").unwrap_or(0.0);
-                    f.set(dp, "i_fw_peak", prev.max(x.i_peak), Current, Some("peak at a turn-off with the load stalled".into()));
+                    f.set(
+                        dp,
+                        "i_fw_peak",
+                        prev.max(x.i_peak),
+                        Current,
+                        Some("peak at a turn-off with the load stalled".into()),
+                    );
                 }
             }
         }
@@ -944,7 +1127,16 @@ fn read_edges(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut 
                 && irr > 1e-3
                 && f.value(dp, "i_rr").is_none_or(|v| irr > v)
             {
-                f.set(dp, "i_rr", irr, Current, Some(format!("peak reverse-recovery current when `{}` turns on", c.part(q).reference)));
+                f.set(
+                    dp,
+                    "i_rr",
+                    irr,
+                    Current,
+                    Some(format!(
+                        "peak reverse-recovery current when `{}` turns on",
+                        c.part(q).reference
+                    )),
+                );
             }
         }
         a.turnoffs.push(t);
@@ -990,17 +1182,26 @@ fn read_legs(c: &Circuit, grp: &Group, sol: &GroupSolution, a: &mut GroupAcc) {
                 continue;
             }
             let Nd::Var(mid_i) = xmid else { continue };
-            let Some(&mid) = grp.nets.get(mid_i as usize) else { continue };
+            let Some(&mid) = grp.nets.get(mid_i as usize) else {
+                continue;
+            };
             // current flowing down through both, in some high/low state
             let down = |part: usize, top: Nd, o: &op::OpPoint| -> f64 {
                 nl.elems_of(part)
                     .iter()
                     .enumerate()
-                    .filter(|(_, e)| matches!(e.role, Role::Main | Role::Body | Role::SeriesR) && !matches!(e.dev, Dev::Res { .. }))
+                    .filter(|(_, e)| {
+                        matches!(e.role, Role::Main | Role::Body | Role::SeriesR)
+                            && !matches!(e.dev, Dev::Res { .. })
+                    })
                     .map(|(i, e)| {
                         let k = nl.part_start[part] as usize + i;
                         let cur = newton::currents(nl, k, &o.x, &o.ex, None);
-                        e.t.iter().zip(cur.iter()).filter(|(n, _)| **n == top).map(|(_, c)| *c).sum::<f64>()
+                        e.t.iter()
+                            .zip(cur.iter())
+                            .filter(|(n, _)| **n == top)
+                            .map(|(_, c)| *c)
+                            .sum::<f64>()
                     })
                     .sum()
             };
@@ -1009,7 +1210,9 @@ fn read_legs(c: &Circuit, grp: &Group, sol: &GroupSolution, a: &mut GroupAcc) {
                 if sol.is_reset(s) {
                     continue;
                 }
-                let Some(o) = sol.op(s, Corner::Max, Mode::Stall) else { continue };
+                let Some(o) = sol.op(s, Corner::Max, Mode::Stall) else {
+                    continue;
+                };
                 let i_hi = down(xl, xf, o);
                 let i_lo = down(yl, ymid, o);
                 let through = i_hi.min(i_lo);
@@ -1024,7 +1227,11 @@ fn read_legs(c: &Circuit, grp: &Group, sol: &GroupSolution, a: &mut GroupAcc) {
                 mid,
                 both_on: both.map(|(s, i)| {
                     (
-                        grp.pins.iter().cloned().zip(sol.states[s].iter().copied()).collect(),
+                        grp.pins
+                            .iter()
+                            .cloned()
+                            .zip(sol.states[s].iter().copied())
+                            .collect(),
                         i,
                     )
                 }),
@@ -1042,7 +1249,10 @@ fn read_diodes(c: &Circuit, grp: &Group, sol: &GroupSolution, a: &mut GroupAcc) 
             continue;
         }
         let es = nl.elems_of(li);
-        let (Some(an), Some(kn)) = (es.first().and_then(|e| e.t.first().copied()), es.last().and_then(|e| e.t.get(1).copied())) else {
+        let (Some(an), Some(kn)) = (
+            es.first().and_then(|e| e.t.first().copied()),
+            es.last().and_then(|e| e.t.get(1).copied()),
+        ) else {
             continue;
         };
         let mut vrev: Option<f64> = None;
@@ -1055,8 +1265,19 @@ fn read_diodes(c: &Circuit, grp: &Group, sol: &GroupSolution, a: &mut GroupAcc) 
             vrev = Some(vrev.map_or(v, |m: f64| m.max(v)));
         }
         match vrev {
-            Some(v) => a.facts.set(d, "v_rev", v.max(0.0), Voltage, Some("largest DC reverse voltage over every pin state, rails at their maximum".into())),
-            None => a.facts.missing(d, "v_rev", "its nets have no defined voltage in any state"),
+            Some(v) => a.facts.set(
+                d,
+                "v_rev",
+                v.max(0.0),
+                Voltage,
+                Some(
+                    "largest DC reverse voltage over every pin state, rails at their maximum"
+                        .into(),
+                ),
+            ),
+            None => a
+                .facts
+                .missing(d, "v_rev", "its nets have no defined voltage in any state"),
         }
     }
 }
@@ -1067,7 +1288,9 @@ fn read_resistors(c: &Circuit, grp: &Group, sol: &GroupSolution, a: &mut GroupAc
         if c.part(r).kind != Kind::Resistor {
             continue;
         }
-        let Some(k) = nl.elem_index(li, Role::Main) else { continue };
+        let Some(k) = nl.elem_index(li, Role::Main) else {
+            continue;
+        };
         let mut worst: Option<(usize, f64)> = None;
         for s in 0..sol.states.len() {
             if let Some(o) = sol.op(s, Corner::Max, Mode::Run) {
@@ -1080,7 +1303,11 @@ fn read_resistors(c: &Circuit, grp: &Group, sol: &GroupSolution, a: &mut GroupAc
             }
         }
         if let Some((s, pw)) = worst {
-            let st = sol.states.get(s).map(|x| describe_state(c, grp, x)).unwrap_or_default();
+            let st = sol
+                .states
+                .get(s)
+                .map(|x| describe_state(c, grp, x))
+                .unwrap_or_default();
             a.facts.set(r, "p_loss", pw.max(0.0), Power, Some(format!("largest continuous dissipation, motors running, rails at their maximum, with {st}")));
         }
     }
@@ -1088,17 +1315,28 @@ fn read_resistors(c: &Circuit, grp: &Group, sol: &GroupSolution, a: &mut GroupAc
 
 fn read_driver_inputs(c: &Circuit, grp: &Group, sol: &GroupSolution, a: &mut GroupAcc) {
     let nl = &sol.nl;
-    let Some(reset) = sol.op(0, Corner::Max, Mode::Stall).filter(|_| sol.is_reset(0)) else {
+    let Some(reset) = sol
+        .op(0, Corner::Max, Mode::Stall)
+        .filter(|_| sol.is_reset(0))
+    else {
         return;
     };
     for e in &nl.elems {
-        let (Dev::Drv { .. }, Role::Out(k)) = (&e.dev, e.role) else { continue };
+        let (Dev::Drv { .. }, Role::Out(k)) = (&e.dev, e.role) else {
+            continue;
+        };
         if !reset.is_floating(e.t[1]) {
             continue;
         }
-        let Some(&drv) = grp.parts.get(e.part as usize) else { continue };
+        let Some(&drv) = grp.parts.get(e.part as usize) else {
+            continue;
+        };
         let dp = c.part(drv);
-        let pin = if dp.pins.get(k as usize).is_some_and(|p| p.name == "outb") { "inb" } else { "in" };
+        let pin = if dp.pins.get(k as usize).is_some_and(|p| p.name == "outb") {
+            "inb"
+        } else {
+            "in"
+        };
         // switches downstream: those whose control node the output reaches
         let out = e.t[0];
         let switches: Vec<PartId> = sol
@@ -1130,7 +1368,13 @@ fn connected_by_resistors(nl: &netlist::Netlist, a: Nd, b: Nd) -> bool {
             if !matches!(e.dev, Dev::Res { .. }) || e.role != Role::Main {
                 continue;
             }
-            let other = if e.t[0] == n { e.t[1] } else if e.t[1] == n { e.t[0] } else { continue };
+            let other = if e.t[0] == n {
+                e.t[1]
+            } else if e.t[1] == n {
+                e.t[0]
+            } else {
+                continue;
+            };
             if other == b {
                 return true;
             }
@@ -1191,24 +1435,37 @@ fn thermal(c: &Circuit, s: &Settings, a: &mut Analysis) {
     for t in &a.turnoffs {
         let sol = &a.solutions[t.group];
         let last = if sol.has_run { Mode::Run } else { Mode::Stall };
-        if t.kind == EdgeKind::Toggle && t.mode == last
+        if t.kind == EdgeKind::Toggle
+            && t.mode == last
             && let Some(er) = sol.edges.get(t.edge)
         {
-            edges.insert(t.switch, (er.res.e_on, er.res.e_off, er.res.e_rr, er.res.e_aval));
+            edges.insert(
+                t.switch,
+                (er.res.e_on, er.res.e_off, er.res.e_rr, er.res.e_aval),
+            );
         }
     }
     for (pid, p) in c.parts.iter().enumerate() {
         if !p.kind.is_switch() {
             continue;
         }
-        let Some(info) = a.switches.get(&pid) else { continue };
+        let Some(info) = a.switches.get(&pid) else {
+            continue;
+        };
         let sol = &a.solutions[info.group];
-        let Some(ls) = a.groups.get(info.group).and_then(|g| g.parts.iter().position(|&x| x == pid)).and_then(|li| sol.switch(li as u32)) else {
+        let Some(ls) = a
+            .groups
+            .get(info.group)
+            .and_then(|g| g.parts.iter().position(|&x| x == pid))
+            .and_then(|li| sol.switch(li as u32))
+        else {
             continue;
         };
         let Some(rp) = ls.run_point.filter(|rp| rp.i_d.abs() >= solve::I_LOAD_MIN) else {
-            a.facts.missing(pid, "p_loss", "it carries no load current in any state");
-            a.facts.missing(pid, "tj", "it carries no load current in any state");
+            a.facts
+                .missing(pid, "p_loss", "it carries no load current in any state");
+            a.facts
+                .missing(pid, "tj", "it carries no load current in any state");
             continue;
         };
         let d = if info.f_pwm > 0.0 { info.duty_max } else { 1.0 };
@@ -1219,7 +1476,9 @@ fn thermal(c: &Circuit, s: &Settings, a: &mut Analysis) {
         // with no gate charge given, the data sheet's edge times stand in
         let p_sw = if p.kind.is_mos() && p.num("qg").is_none() {
             match (p.num("tr"), p.num("tf")) {
-                (Some(tr), Some(tf)) => 0.5 * rp.v_ds.abs().max(supply_of(c, pid)) * rp.i_d.abs() * (tr + tf) * f,
+                (Some(tr), Some(tf)) => {
+                    0.5 * rp.v_ds.abs().max(supply_of(c, pid)) * rp.i_d.abs() * (tr + tf) * f
+                }
                 _ => (e_on + e_off + e_rr) * f,
             }
         } else {
@@ -1240,22 +1499,62 @@ fn thermal(c: &Circuit, s: &Settings, a: &mut Analysis) {
             ""
         };
         let Some(rth) = p.num("rth_ja") else {
-            a.facts.set(pid, "p_loss", p_of(ta), Power, Some(format!("at {} (no `rth_ja`){note_cause}", format_si(ta, Temperature))));
-            a.facts.missing(pid, "tj", format!("`{}` has no `rth_ja`", p.reference));
+            a.facts.set(
+                pid,
+                "p_loss",
+                p_of(ta),
+                Power,
+                Some(format!(
+                    "at {} (no `rth_ja`){note_cause}",
+                    format_si(ta, Temperature)
+                )),
+            );
+            a.facts
+                .missing(pid, "tj", format!("`{}` has no `rth_ja`", p.reference));
             continue;
         };
         if f > 0.0 {
-            a.facts.set(pid, "p_sw", p_sw, Power, Some("(e_on + e_off + e_rr + e_aval)·f_pwm".into()));
+            a.facts.set(
+                pid,
+                "p_sw",
+                p_sw,
+                Power,
+                Some("(e_on + e_off + e_rr + e_aval)·f_pwm".into()),
+            );
         }
         let limit = p.num("tj_max").unwrap_or(150.0) + 300.0;
         match physics::junction_temperature(ta, rth, limit, p_of) {
             physics::Thermal::Converged { tj, p: pw } => {
-                a.facts.set(pid, "p_loss", pw, Power, Some(format!("at Tj {}{note_cause}", format_si(tj, Temperature))));
-                a.facts.set(pid, "tj", tj, Temperature, Some(format!("ambient {} + P·Rth", format_si(ta, Temperature))));
+                a.facts.set(
+                    pid,
+                    "p_loss",
+                    pw,
+                    Power,
+                    Some(format!("at Tj {}{note_cause}", format_si(tj, Temperature))),
+                );
+                a.facts.set(
+                    pid,
+                    "tj",
+                    tj,
+                    Temperature,
+                    Some(format!("ambient {} + P·Rth", format_si(ta, Temperature))),
+                );
             }
             physics::Thermal::Runaway { p_at_limit } => {
-                a.facts.set(pid, "p_loss", p_at_limit, Power, Some("thermal runaway: no fixed point".into()));
-                a.facts.set(pid, "tj", limit, Temperature, Some("thermal runaway: no fixed point below the limit".into()));
+                a.facts.set(
+                    pid,
+                    "p_loss",
+                    p_at_limit,
+                    Power,
+                    Some("thermal runaway: no fixed point".into()),
+                );
+                a.facts.set(
+                    pid,
+                    "tj",
+                    limit,
+                    Temperature,
+                    Some("thermal runaway: no fixed point below the limit".into()),
+                );
             }
         }
     }
@@ -1264,11 +1563,23 @@ fn thermal(c: &Circuit, s: &Settings, a: &mut Analysis) {
         if !p.kind.is_diode() {
             continue;
         }
-        let Some(i_avg) = a.facts.value(d, "i_avg") else { continue };
+        let Some(i_avg) = a.facts.value(d, "i_avg") else {
+            continue;
+        };
         let (model, _) = devices::Diode::fit(p);
         let i_fw = a.facts.value(d, "i_fw").unwrap_or(i_avg);
         let vf = model.v_at(i_fw.max(1e-9));
-        a.facts.set(d, "p_loss", vf * i_avg, Power, Some(format!("V_F({}) = {} × i_avg", format_si(i_fw, Current), format_si(vf, Voltage))));
+        a.facts.set(
+            d,
+            "p_loss",
+            vf * i_avg,
+            Power,
+            Some(format!(
+                "V_F({}) = {} × i_avg",
+                format_si(i_fw, Current),
+                format_si(vf, Voltage)
+            )),
+        );
     }
 }
 

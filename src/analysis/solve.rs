@@ -203,7 +203,15 @@ fn switch_vi(nl: &Netlist, k: usize, op: &OpPoint) -> (f64, f64, f64, f64) {
 /// The region of a switch: off below its leakage floor; on when it drops
 /// no more than twice its rated on-state voltage at that current; linear
 /// in between (it drops voltage and heats, `P = V_DS·I`).
-fn region(nl: &Netlist, k: usize, rds_on: f64, vce_sat: f64, vds: f64, i: f64, i_max: f64) -> Region {
+fn region(
+    nl: &Netlist,
+    k: usize,
+    rds_on: f64,
+    vce_sat: f64,
+    vds: f64,
+    i: f64,
+    i_max: f64,
+) -> Region {
     if i.abs() < (I_OFF_FRACTION * i_max).max(I_OFF_FLOOR) {
         return Region::Off;
     }
@@ -361,8 +369,14 @@ fn read_switches(sol: &GroupSolution, rated: &[Rated], drives: &[PinDrive]) -> V
                 let Some(o) = sol.states.iter().position(|b| *b == flipped) else {
                     continue;
                 };
-                let ph = sw.points.iter().find(|x| x.corner == Corner::Max && x.state == s as u32);
-                let pl = sw.points.iter().find(|x| x.corner == Corner::Max && x.state == o as u32);
+                let ph = sw
+                    .points
+                    .iter()
+                    .find(|x| x.corner == Corner::Max && x.state == s as u32);
+                let pl = sw
+                    .points
+                    .iter()
+                    .find(|x| x.corner == Corner::Max && x.state == o as u32);
                 if let (Some(ph), Some(pl)) = (ph, pl) {
                     if (ph.v_gs - pl.v_gs).abs() > 0.1 {
                         changes_drive = true;
@@ -459,7 +473,11 @@ fn run_edges(sol: &GroupSolution, drives: &[PinDrive]) -> Vec<EdgeRun> {
             .map(|j| pin_level(nl, j as u32, Corner::Max))
             .collect();
         let reset = vec![PinState::HiZ; sol.n_pins];
-        let modes: &[Mode] = if sol.has_run { &[Mode::Stall, Mode::Run] } else { &[Mode::Stall] };
+        let modes: &[Mode] = if sol.has_run {
+            &[Mode::Stall, Mode::Run]
+        } else {
+            &[Mode::Stall]
+        };
         for &mode in modes {
             let Some(on) = sol.op(best as usize, Corner::Max, mode) else {
                 continue;

@@ -84,9 +84,9 @@ impl<'a> Names<'a> {
 pub enum PinDrive<'a> {
     /// A constant level per group pin (`None`: high-impedance).
     Dc(&'a [Option<f64>]),
-    /// A piecewise-linear level per group pin: (time, level) points
-    /// (`None`: high-impedance throughout).
-    Pwl(&'a [Option<Vec<(f64, f64)>>]),
+    /// A wave per group pin (piecewise-linear, or released to
+    /// high-impedance at a time).
+    Waves(&'a [super::transient::PinWave]),
 }
 
 /// Write the elements of a netlist. Loads get a zero-volt (stall) or EMF
@@ -122,7 +122,8 @@ pub fn elements(s: &mut String, names: &Names, corner: Corner, pins: &PinDrive, 
                 let _ = writeln!(s, "V{name} {name}_e {} DC {:.12e}", t[1], e_v);
             }
             Dev::Diode(d) => {
-                let _ = writeln!(s, "D{name} {} {} dm_{name}", t[0], t[1]);
+                let _ = writeln!(s, "V{name}_sense {} {name}_a DC 0", t[0]);
+                let _ = writeln!(s, "D{name} {name}_a {} dm_{name}", t[1]);
                 let bv =
                     d.bv.map(|b| format!(" BV={b:.12e} IBV=1e-3"))
                         .unwrap_or_default();
@@ -161,23 +162,51 @@ pub fn elements(s: &mut String, names: &Names, corner: Corner, pins: &PinDrive, 
                 );
             }
             Dev::Pin { pin, r, .. } => {
-                let src = match pins {
-                    PinDrive::Dc(levels) => levels
-                        .get(*pin as usize)
-                        .copied()
-                        .flatten()
-                        .map(|v| format!("DC {v:.12e}")),
-                    PinDrive::Pwl(w) => w.get(*pin as usize).and_then(|p| p.as_ref()).map(|pts| {
-                        let body: Vec<String> = pts
-                            .iter()
-                            .map(|(t, v)| format!("{t:.12e} {v:.12e}"))
-                            .collect();
-                        format!("PWL({})", body.join(" "))
-                    }),
+                use super::transient::PinWave;
+                let (src, release) = match pins {
+                    PinDrive::Dc(levels) => (
+                        levels
+                            .get(*pin as usize)
+                            .copied()
+                            .flatten()
+                            .map(|v| format!("DC {v:.12e}")),
+                        None,
+                    ),
+                    PinDrive::Waves(w) => match w.get(*pin as usize) {
+                        Some(PinWave::Pwl(pts)) => {
+                            let body: Vec<String> = pts
+                                .iter()
+                                .map(|(t, v)| format!("{t:.12e} {v:.12e}"))
+                                .collect();
+                            (Some(format!("PWL({})", body.join(" "))), None)
+                        }
+                        Some(PinWave::Release(level, at)) => {
+                            (Some(format!("DC {level:.12e}")), Some(*at))
+                        }
+                        _ => (None, None),
+                    },
                 };
                 if let Some(src) = src {
                     let _ = writeln!(s, "V{name} {name}_s {} {src}", t[1]);
-                    let _ = writeln!(s, "R{name} {name}_s {} {:.12e}", t[0], r);
+                    match release {
+                        // the pin lets go at `at`: a switch opens behind it
+                        Some(at) => {
+                            let _ = writeln!(
+                                s,
+                                "V{name}_c {name}_c 0 PWL(0 1 {at:.12e} 1 {:.12e} 0)",
+                                at + 1e-12
+                            );
+                            let _ = writeln!(s, "S{name} {name}_s {name}_x {name}_c 0 swm_{name}");
+                            let _ = writeln!(
+                                models,
+                                ".model swm_{name} SW(VT=0.5 VH=0 RON=1e-6 ROFF=1e15)"
+                            );
+                            let _ = writeln!(s, "R{name} {name}_x {} {:.12e}", t[0], r);
+                        }
+                        None => {
+                            let _ = writeln!(s, "R{name} {name}_s {} {:.12e}", t[0], r);
+                        }
+                    }
                 }
             }
             Dev::Drv { vth, r, invert } => {
@@ -211,7 +240,7 @@ pub fn current_probe(names: &Names, k: usize) -> Option<String> {
     let name = names.elem(k);
     match e.dev {
         Dev::Load { .. } => Some(format!("i(v{name})")),
-        Dev::Mos(_) | Dev::Bjt(_) => Some(format!("i(v{name}_sense)")),
+        Dev::Mos(_) | Dev::Bjt(_) | Dev::Diode(_) => Some(format!("i(v{name}_sense)")),
         _ => None,
     }
 }
@@ -250,7 +279,7 @@ pub fn tran_deck(
     title: &str,
     names: &Names,
     corner: Corner,
-    pins: &[Option<Vec<(f64, f64)>>],
+    pins: &[super::transient::PinWave],
     emf: &[f64],
     t_stop: f64,
     t_max: f64,
@@ -264,21 +293,38 @@ pub fn tran_deck(
     for (k, v) in expected {
         let _ = writeln!(s, "* expected: {k} = {v:.9e}");
     }
-    elements(&mut s, names, corner, &PinDrive::Pwl(pins), emf);
+    elements(&mut s, names, corner, &PinDrive::Waves(pins), emf);
+    // ngspice's default reltol lets its steps grow across a switching edge
+    // until the edge is sampled too coarsely to read t_off and e_off
+    // within a few per cent; 1e-4 resolves it
+    let _ = writeln!(s, ".options reltol=1e-4");
     let _ = writeln!(s, ".control");
-    let _ = writeln!(s, "tran {:.6e} {:.9e} 0 {:.6e}", t_max / 10.0, t_stop, t_max);
+    let _ = writeln!(
+        s,
+        "tran {:.6e} {:.9e} 0 {:.6e}",
+        t_max / 10.0,
+        t_stop,
+        t_max
+    );
     let _ = writeln!(s, "wrdata {out} {}", probes.join(" "));
     let _ = writeln!(s, ".endc\n.end");
     s
 }
 
 /// The probes an edge deck writes, in this order: V_DS and V_GS of the
-/// switch (device polarity), its channel current, the main load's current.
+/// switch, its channel current, the main load's current, then per clamp
+/// part its voltage and current.
 pub struct EdgeDeck {
     pub deck: String,
     /// Sign that turns the probes into device polarity.
     pub polarity: f64,
     pub t_stop: f64,
+    /// When the switch's own command starts (its edge may wait for the
+    /// dead time).
+    pub t_cmd: f64,
+    /// After the four switch probes, a (voltage, current) probe pair per
+    /// clamp part, named here (`switch`: its own body or avalanche diode).
+    pub clamps: Vec<String>,
     /// The engine's figures, as in the `* expected:` lines.
     pub expected: Vec<(String, f64)>,
 }
@@ -291,14 +337,28 @@ pub fn edge_deck(b: &crate::Built, switch: usize, out: &str) -> Result<EdgeDeck,
     let c = &b.circuit;
     let sp = c.parts.get(switch).ok_or("no such part")?;
     if !sp.kind.is_switch() {
-        return Err(format!("`{}` is a {}, not a switch", sp.reference, sp.kind.name()));
+        return Err(format!(
+            "`{}` is a {}, not a switch",
+            sp.reference,
+            sp.kind.name()
+        ));
     }
     let t = a
         .turnoffs
         .iter()
         .filter(|t| t.switch == switch && t.mode == super::op::Mode::Stall)
-        .max_by(|x, y| x.v_peak.total_cmp(&y.v_peak))
-        .ok_or_else(|| format!("`{}` carries no load current that it switches off", sp.reference))?;
+        // the switch's own toggle first, then a reset
+        .max_by(|x, y| {
+            (x.kind == super::EdgeKind::Toggle)
+                .cmp(&(y.kind == super::EdgeKind::Toggle))
+                .then(x.v_peak.total_cmp(&y.v_peak))
+        })
+        .ok_or_else(|| {
+            format!(
+                "`{}` carries no load current that it switches off",
+                sp.reference
+            )
+        })?;
     let grp = &a.groups[t.group];
     let sol = &a.solutions[t.group];
     let er = sol.edges.get(t.edge).ok_or("no edge")?;
@@ -327,20 +387,13 @@ pub fn edge_deck(b: &crate::Built, switch: usize, out: &str) -> Result<EdgeDeck,
         },
         0.0,
     );
-    let on = sol.op(er.from as usize, Corner::Max, er.mode).ok_or("no operating point")?;
-    // a release to high-impedance is a switch opening in the deck: write
-    // it as a level held, then a piecewise-linear open is not possible,
-    // so such pins get a resistor to a switch controlled by a PWL source
-    let pins: Vec<Option<Vec<(f64, f64)>>> = sched
-        .pins
-        .iter()
-        .map(|p| match p {
-            super::transient::PinWave::Pwl(v) => Some(v.clone()),
-            super::transient::PinWave::Release(level, _) => Some(vec![(0.0, *level)]),
-            super::transient::PinWave::HiZ => None,
-        })
-        .collect();
-    let km = nl.elem_index(er.switch as usize, Role::Main).ok_or("no switch element")?;
+    let on = sol
+        .op(er.from as usize, Corner::Max, er.mode)
+        .ok_or("no operating point")?;
+    let pins = &sched.pins;
+    let km = nl
+        .elem_index(er.switch as usize, Role::Main)
+        .ok_or("no switch element")?;
     let e = &nl.elems[km];
     let polarity = match &e.dev {
         Dev::Mos(m) => m.polarity,
@@ -349,7 +402,11 @@ pub fn edge_deck(b: &crate::Built, switch: usize, out: &str) -> Result<EdgeDeck,
     };
     let node = |n: Nd| {
         let s = names.node(n);
-        if s == "0" { "0".to_string() } else { format!("v({s})") }
+        if s == "0" {
+            "0".to_string()
+        } else {
+            format!("v({s})")
+        }
     };
     let main = match nl.elem_index(er.switch as usize, Role::SeriesR) {
         Some(ks) if nl.elems[ks].t.get(1) == e.t.first() => nl.elems[ks].t[0],
@@ -367,10 +424,51 @@ pub fn edge_deck(b: &crate::Built, switch: usize, out: &str) -> Result<EdgeDeck,
     if let Some(lk) = lk.and_then(|k| current_probe(&names, k)) {
         probes.push(lk);
     }
+    // each clamp part and the switch's own body or avalanche diode:
+    // the voltage across its pins and its junction current
+    let mut clamps: Vec<(String, usize)> = Vec::new();
+    for (k, el) in nl.elems.iter().enumerate() {
+        if !matches!(el.dev, Dev::Diode(_)) {
+            continue;
+        }
+        let Some(&p) = grp.parts.get(el.part as usize) else {
+            continue;
+        };
+        let kind = c.part(p).kind;
+        let own = el.part == er.switch && matches!(el.role, Role::Body | Role::Avalanche);
+        if (el.role == Role::Main
+            && matches!(kind, crate::model::Kind::Zener | crate::model::Kind::Tvs))
+            || own
+        {
+            clamps.push((
+                if own {
+                    "switch".to_string()
+                } else {
+                    c.part(p).reference.clone()
+                },
+                k,
+            ));
+        }
+    }
+    for (_, k) in &clamps {
+        let el = &nl.elems[*k];
+        // the pins: before a series resistance, and the junction's far end
+        let a = match nl
+            .elems_of(el.part as usize)
+            .iter()
+            .find(|x| x.role == Role::SeriesR && x.t.get(1) == el.t.first())
+        {
+            Some(rs) => rs.t[0],
+            None => el.t[0],
+        };
+        probes.push(format!("{}-{}", node(a), node(el.t[1])));
+        probes.push(current_probe(&names, *k).ok_or("no probe")?);
+    }
     let t_stop = er.res.wave_off.t.last().copied().unwrap_or(1e-3);
     let r = &er.res;
     let mut expected = vec![
         ("i0".to_string(), r.i0),
+        ("e_load".to_string(), t.e_load),
         ("v_peak".to_string(), r.v_peak),
         ("e_off".to_string(), r.e_off),
         ("e_aval".to_string(), r.e_aval),
@@ -383,16 +481,13 @@ pub fn edge_deck(b: &crate::Built, switch: usize, out: &str) -> Result<EdgeDeck,
     }
     for pe in &r.parts {
         if let Some(&p) = grp.parts.get(pe.part as usize)
-            && matches!(c.part(p).kind, crate::model::Kind::Zener | crate::model::Kind::Tvs)
+            && matches!(
+                c.part(p).kind,
+                crate::model::Kind::Zener | crate::model::Kind::Tvs
+            )
         {
             expected.push((format!("e_clamp({})", c.part(p).reference), pe.energy));
         }
-    }
-    if sched.pins.iter().any(|p| matches!(p, super::transient::PinWave::Release(..))) {
-        return Err(format!(
-            "the turn-off of `{}` is a controller reset (its pins go high-impedance), which a deck cannot write as a source",
-            sp.reference
-        ));
     }
     let title = format!(
         "armature: turn-off of {} ({}), from {}",
@@ -404,7 +499,7 @@ pub fn edge_deck(b: &crate::Built, switch: usize, out: &str) -> Result<EdgeDeck,
         &title,
         &names,
         Corner::Max,
-        &pins,
+        pins,
         &on.ex.emf,
         t_stop,
         (t_stop / 20000.0).max(1e-11),
@@ -416,6 +511,8 @@ pub fn edge_deck(b: &crate::Built, switch: usize, out: &str) -> Result<EdgeDeck,
         deck,
         polarity,
         t_stop,
+        t_cmd: er.res.t_cmd,
+        clamps: clamps.into_iter().map(|(n, _)| n).collect(),
         expected,
     })
 }
@@ -453,5 +550,8 @@ pub fn state_deck(
             .map(|s| super::describe_state(c, grp, s))
             .unwrap_or_default()
     );
-    Ok((op_deck(&title, &names, corner, &o.ex.pins, &o.ex.emf, &exp), exp))
+    Ok((
+        op_deck(&title, &names, corner, &o.ex.pins, &o.ex.emf, &exp),
+        exp,
+    ))
 }

@@ -70,7 +70,11 @@ impl PinWave {
                 for w in p.windows(2) {
                     let (a, b) = (w[0], w[1]);
                     if t <= b.0 {
-                        let f = if b.0 > a.0 { (t - a.0) / (b.0 - a.0) } else { 1.0 };
+                        let f = if b.0 > a.0 {
+                            (t - a.0) / (b.0 - a.0)
+                        } else {
+                            1.0
+                        };
                         return Some(a.1 + f * (b.1 - a.1));
                     }
                 }
@@ -397,7 +401,13 @@ impl<'a> Sim<'a> {
             if let Dev::Load { .. } = e.dev {
                 let i_new = newton::currents(self.nl, k, x, &self.ex, Some(&comp))[0];
                 let i_old = self.hist[k].i;
-                let scale = self.i_scale.get(k).copied().unwrap_or(0.0).max(i_old.abs()).max(1e-6);
+                let scale = self
+                    .i_scale
+                    .get(k)
+                    .copied()
+                    .unwrap_or(0.0)
+                    .max(i_old.abs())
+                    .max(1e-6);
                 worst = worst.max((i_new - i_old).abs() / (LOAD_STEP * scale));
             }
         }
@@ -500,7 +510,13 @@ impl<'a> Sim<'a> {
             let abs = if i < n { V_ABS } else { I_ABS };
             let tol = TRTOL * (RELTOL * zc[i].abs().max(z0[i].abs()) + abs);
             if std::env::var_os("ARMATURE_TRACE2").is_some() && lte / tol > 1.0 {
-                eprintln!("  lte comp {i} of {} (n={n}): zc {:e} zp {:e} z0 {:e}", zc.len(), zc[i], zp[i], z0[i]);
+                eprintln!(
+                    "  lte comp {i} of {} (n={n}): zc {:e} zp {:e} z0 {:e}",
+                    zc.len(),
+                    zc[i],
+                    zp[i],
+                    z0[i]
+                );
             }
             worst = worst.max(lte / tol);
         }
@@ -508,7 +524,13 @@ impl<'a> Sim<'a> {
     }
 }
 
-fn new_hist(nl: &Netlist, hist: &[Hist], x: &[f64], ex: &Excitation, comp: &Companion) -> Vec<Hist> {
+fn new_hist(
+    nl: &Netlist,
+    hist: &[Hist],
+    x: &[f64],
+    ex: &Excitation,
+    comp: &Companion,
+) -> Vec<Hist> {
     {
         let mut out = hist.to_vec();
         for (k, e) in nl.elems.iter().enumerate() {
@@ -532,7 +554,11 @@ fn new_hist(nl: &Netlist, hist: &[Hist], x: &[f64], ex: &Excitation, comp: &Comp
                 }
                 Dev::Load { .. } => {
                     let i = newton::currents(nl, k, x, ex, Some(comp))[0];
-                    out[k] = Hist { q: 0.0, i, v: va - vb };
+                    out[k] = Hist {
+                        q: 0.0,
+                        i,
+                        v: va - vb,
+                    };
                 }
                 _ => {}
             }
@@ -540,4 +566,3 @@ fn new_hist(nl: &Netlist, hist: &[Hist], x: &[f64], ex: &Excitation, comp: &Comp
         out
     }
 }
-

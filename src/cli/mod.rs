@@ -581,7 +581,10 @@ fn export_spice(path: &Path, part: Option<&str>, common: &CommonArgs) -> i32 {
             }
         },
     };
-    let out = format!("{}.wave", crate::analysis::spice::sanitize(&b.circuit.part(sw).reference));
+    let out = format!(
+        "{}.wave",
+        crate::analysis::spice::sanitize(&b.circuit.part(sw).reference)
+    );
     match crate::analysis::spice::edge_deck(&b, sw, &out) {
         Ok(d) => {
             print!("{}", d.deck);

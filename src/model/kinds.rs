@@ -92,7 +92,11 @@ const BJT_KEYS: &[KeyDef] = &[
     q("vbe_on", Voltage, "base-emitter on voltage"),
     q("ib_max", Current, "base current rating"),
     q("tf", Time, "fall time"),
-    q("coss", Capacitance, "output (collector-emitter) capacitance"),
+    q(
+        "coss",
+        Capacitance,
+        "output (collector-emitter) capacitance",
+    ),
     q(
         "rth_ja",
         ThermalResistance,

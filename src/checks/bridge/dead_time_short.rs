@@ -95,7 +95,10 @@ pub fn detect<'a>(ctx: &'a Ctx) -> Vec<Short<'a>> {
             continue;
         };
         let pins = [(d.part, d.pin.clone()), (*cp, cpin.clone())];
-        let mut legs: Vec<&crate::analysis::Leg> = pins.iter().flat_map(|p| by_pin.get(p).cloned().unwrap_or_default()).collect();
+        let mut legs: Vec<&crate::analysis::Leg> = pins
+            .iter()
+            .flat_map(|p| by_pin.get(p).cloned().unwrap_or_default())
+            .collect();
         legs.sort_by_key(|l| (l.high, l.low));
         legs.dedup_by_key(|l| (l.high, l.low));
         for leg in legs {
@@ -106,7 +109,11 @@ pub fn detect<'a>(ctx: &'a Ctx) -> Vec<Short<'a>> {
             let (Some(th), Some(tl)) = (t_off(ctx, leg.high), t_off(ctx, leg.low)) else {
                 continue;
             };
-            let (slow, ts) = if th >= tl { (leg.high, th) } else { (leg.low, tl) };
+            let (slow, ts) = if th >= tl {
+                (leg.high, th)
+            } else {
+                (leg.low, tl)
+            };
             let dt = deadtime.unwrap_or(0.0);
             if dt < ts {
                 out.push(Short {

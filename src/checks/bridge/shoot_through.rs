@@ -50,7 +50,13 @@ with shoot-through protection, or gate logic that cannot turn both on.
 pub const RULE: Rule = Rule { meta: &META, check };
 
 /// Legs with a pin assignment that turns both switches on.
-pub fn detect<'a>(ctx: &'a Ctx) -> Vec<(&'a crate::analysis::Leg, &'a [(crate::analysis::CtlPin, crate::analysis::PinState)], f64)> {
+pub fn detect<'a>(
+    ctx: &'a Ctx,
+) -> Vec<(
+    &'a crate::analysis::Leg,
+    &'a [(crate::analysis::CtlPin, crate::analysis::PinState)],
+    f64,
+)> {
     ctx.analysis
         .legs
         .iter()

@@ -73,7 +73,12 @@ pub fn detect<'a>(ctx: &'a Ctx) -> Vec<Missing<'a>> {
     for t in &a.turnoffs {
         let Some(load) = t.load else { continue };
         let inductive = ctx.circuit.part(load).kind.is_inductive_load();
-        if !inductive || !t.path.is_empty() || reversed.contains(&load) || t.failed || !seen.insert(load) {
+        if !inductive
+            || !t.path.is_empty()
+            || reversed.contains(&load)
+            || t.failed
+            || !seen.insert(load)
+        {
             continue;
         }
         out.push(Missing { turnoff: t, load });

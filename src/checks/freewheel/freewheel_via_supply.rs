@@ -79,7 +79,12 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
         .into_iter()
         .filter_map(|(tt, x, e)| {
             let load = tt.load?;
-            let through = tt.path.iter().map(|(q, _)| format!("`{}`", ref_of(ctx, *q))).collect::<Vec<_>>().join(", ");
+            let through = tt
+                .path
+                .iter()
+                .map(|(q, _)| format!("`{}`", ref_of(ctx, *q)))
+                .collect::<Vec<_>>()
+                .join(", ");
             let mut f = on_part(
                 &META,
                 ctx,
@@ -91,7 +96,11 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
                     ref_of(ctx, load),
                     crate::units::format_si(e, crate::units::Dimension::Energy),
                     c.net(x).name,
-                    if through.is_empty() { String::new() } else { format!(" through {through}") },
+                    if through.is_empty() {
+                        String::new()
+                    } else {
+                        format!(" through {through}")
+                    },
                     c.net(x).name
                 ),
             );

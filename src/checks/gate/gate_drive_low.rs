@@ -66,17 +66,28 @@ pub enum Low {
     /// No pin state turns it on: its best drive (min corner).
     Never { switch: usize, vgs: f64 },
     /// It conducts in its linear region.
-    Linear { switch: usize, point: crate::analysis::Point },
+    Linear {
+        switch: usize,
+        point: crate::analysis::Point,
+    },
     /// MOSFET: on, but V_GS below `rds_on_vgs`.
     Gate { switch: usize, vgs: f64, vneed: f64 },
     /// Bipolar: base current below I_C / hfe_min.
-    Base { switch: usize, ib: f64, ic: f64, hfe: f64 },
+    Base {
+        switch: usize,
+        ib: f64,
+        ic: f64,
+        hfe: f64,
+    },
 }
 
 impl Low {
     pub fn switch(&self) -> usize {
         match self {
-            Low::Never { switch, .. } | Low::Linear { switch, .. } | Low::Gate { switch, .. } | Low::Base { switch, .. } => *switch,
+            Low::Never { switch, .. }
+            | Low::Linear { switch, .. }
+            | Low::Gate { switch, .. }
+            | Low::Base { switch, .. } => *switch,
         }
     }
 }
@@ -104,14 +115,20 @@ pub fn detect(ctx: &Ctx) -> Vec<Low> {
             continue;
         }
         if info.on_states == 0 && !info.ever_on && !info.reset_on {
-            out.push(Low::Never { switch: sw, vgs: info.v_gs_best.unwrap_or(0.0) });
+            out.push(Low::Never {
+                switch: sw,
+                vgs: info.v_gs_best.unwrap_or(0.0),
+            });
             continue;
         }
         if !carries_load {
             continue;
         }
         if let Some(pt) = info.linear {
-            out.push(Low::Linear { switch: sw, point: pt });
+            out.push(Low::Linear {
+                switch: sw,
+                point: pt,
+            });
             continue;
         }
         if p.kind.is_mos() {
@@ -126,13 +143,22 @@ pub fn detect(ctx: &Ctx) -> Vec<Low> {
             if !p.kind.is_p_type() && level >= vneed && !super::pull_resistors(ctx, sw).is_empty() {
                 continue;
             }
-            out.push(Low::Gate { switch: sw, vgs, vneed });
+            out.push(Low::Gate {
+                switch: sw,
+                vgs,
+                vneed,
+            });
         } else if matches!(p.kind, Kind::Npn | Kind::Pnp) {
             let (Some(hfe), Some(ib)) = (p.num("hfe_min"), a_.facts.value(sw, "i_b")) else {
                 continue;
             };
             if ib + 1e-12 < i_on / hfe {
-                out.push(Low::Base { switch: sw, ib, ic: i_on, hfe });
+                out.push(Low::Base {
+                    switch: sw,
+                    ib,
+                    ic: i_on,
+                    hfe,
+                });
             }
         }
     }
