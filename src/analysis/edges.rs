@@ -81,6 +81,7 @@ pub struct EdgeResult {
 pub struct PartEdge {
     pub part: u32,
     pub energy: f64,
+    /// Charge carried after the switch's channel current fell below 10 %.
     pub charge: f64,
     pub i_peak: f64,
 }
@@ -173,6 +174,10 @@ struct Acc {
     last_q: Vec<f64>,
     e: Vec<f64>,
     q: Vec<f64>,
+    /// charge carried once the switch's channel has let go (the
+    /// freewheel path proper, not a short through the switch)
+    q_after: Vec<f64>,
+    after: bool,
     i_pk: Vec<f64>,
     /// energy and charge of junctions while reverse-biased (breakdown),
     /// and of a series resistance while its junction is
@@ -192,6 +197,8 @@ impl Acc {
             last_q: vec![0.0; n],
             e: vec![0.0; n],
             q: vec![0.0; n],
+            q_after: vec![0.0; n],
+            after: false,
             i_pk: vec![0.0; n],
             e_rev: vec![0.0; n],
             q_rev: vec![0.0; n],
@@ -230,6 +237,9 @@ impl Acc {
                 let dq = 0.5 * (q + self.last_q[k]) * dt;
                 self.e[k] += de;
                 self.q[k] += dq;
+                if self.after {
+                    self.q_after[k] += dq;
+                }
                 if self.rev[k] {
                     match nl.elems[k].dev {
                         Dev::Diode(_) => {
@@ -415,6 +425,9 @@ pub fn simulate(spec: &EdgeSpec) -> EdgeResult {
         wave.id.push(probe.ich(s));
         wave.il
             .push(probe.main_load.map_or(0.0, |k| s.currents(k)[0]));
+        if !acc.after && probe.ich(s).abs() < 0.1 * i0.abs() {
+            acc.after = true;
+        }
         acc.add(nl, s);
         for (p, v) in clamp_i.iter_mut().enumerate() {
             if p as u32 == probe.switch {
@@ -493,7 +506,7 @@ pub fn simulate(spec: &EdgeSpec) -> EdgeResult {
         if let Some(slot) = ep.get_mut(p) {
             slot.energy += acc.e[k];
             if matches!(nl.elems[k].role, Role::Main | Role::Body) {
-                slot.charge += acc.q[k];
+                slot.charge += acc.q_after[k];
                 slot.i_peak = slot.i_peak.max(acc.i_pk[k]);
             }
         }
