@@ -9,6 +9,7 @@
 //!   energy within 5 % (`t_off` within 5 % + 0.5 ns; energies below 0.1 %
 //!   of the load's stored energy are not compared), read from ngspice's
 //!   waveforms with the same reading functions the engine uses.
+//!
 //! With `CI` set and ngspice missing, these tests fail; elsewhere they are
 //! skipped with a note.
 

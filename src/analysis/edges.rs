@@ -222,12 +222,6 @@ impl Acc {
                 }
             }
         }
-        if std::env::var_os("ARMATURE_TRACE_ACC").is_some() {
-            let cur: Vec<String> = (0..nl.elems.len())
-                .map(|k| format!("{:.3e}", s.currents(k)[0]))
-                .collect();
-            eprintln!("{:.6e} {}", s.t, cur.join(" "));
-        }
         for k in 0..nl.elems.len() {
             let (p, q) = power(nl, k, s);
             self.i_pk[k] = self.i_pk[k].max(q);
@@ -433,17 +427,17 @@ pub fn simulate(spec: &EdgeSpec) -> EdgeResult {
             if p as u32 == probe.switch {
                 continue;
             }
-            if let Some(k) = nl.elem_index(p, Role::Main) {
-                if matches!(
+            if let Some(k) = nl.elem_index(p, Role::Main)
+                && matches!(
                     nl.elems[k].dev,
                     Dev::Diode(_) | Dev::Res { .. } | Dev::Mos(_)
-                ) {
-                    let mut i = s.currents(k)[0];
-                    if let Some(kb) = nl.elem_index(p, Role::Body) {
-                        i -= s.currents(kb)[0];
-                    }
-                    v.push(i);
+                )
+            {
+                let mut i = s.currents(k)[0];
+                if let Some(kb) = nl.elem_index(p, Role::Body) {
+                    i -= s.currents(kb)[0];
                 }
+                v.push(i);
             }
         }
     };

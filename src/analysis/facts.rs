@@ -9,14 +9,15 @@ pub struct Fact {
     pub value: f64,
     pub dim: Dimension,
     /// How it was obtained, for `facts` and messages.
-    pub note: Option<Box<str>>,
+    /// Shared between the identical groups that reuse one reading.
+    pub note: Option<std::sync::Arc<str>>,
 }
 
 /// A fact that could not be computed, with the reason.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Missing {
     pub name: &'static str,
-    pub reason: String,
+    pub reason: std::sync::Arc<str>,
 }
 
 #[derive(Clone, Debug, Default)]
@@ -32,7 +33,7 @@ impl PartFacts {
             return;
         }
         self.missing.retain(|m| m.name != name);
-        let note = note.map(String::into_boxed_str);
+        let note = note.map(std::sync::Arc::<str>::from);
         if let Some(f) = self.facts.iter_mut().find(|f| f.name == name) {
             f.value = value;
             f.dim = dim;
@@ -60,7 +61,7 @@ impl PartFacts {
         }
         self.missing.push(Missing {
             name,
-            reason: reason.into(),
+            reason: std::sync::Arc::from(reason.into()),
         });
     }
 
@@ -87,7 +88,7 @@ impl PartFacts {
             }
         }
         for m in other.missing {
-            self.missing(m.name, m.reason);
+            self.missing(m.name, m.reason.to_string());
         }
     }
 }
@@ -118,7 +119,7 @@ impl Facts {
             .missing
             .iter()
             .find(|m| m.name == name)
-            .map(|m| m.reason.as_str())
+            .map(|m| &*m.reason)
     }
 
     /// Fold in the facts one group computed on its own.
@@ -142,6 +143,20 @@ impl Facts {
 #[derive(Clone, Debug, Default)]
 pub struct LocalFacts {
     parts: crate::fasthash::FastMap<usize, PartFacts>,
+}
+
+impl LocalFacts {
+    /// The same facts for the parts another, identical group has in their
+    /// place.
+    pub fn remap(&self, f: impl Fn(usize) -> Option<usize>) -> LocalFacts {
+        LocalFacts {
+            parts: self
+                .parts
+                .iter()
+                .filter_map(|(&p, pf)| Some((f(p)?, pf.clone())))
+                .collect(),
+        }
+    }
 }
 
 /// Where the analysis writes a part's facts: the circuit's dense table

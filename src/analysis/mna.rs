@@ -15,13 +15,15 @@ use crate::fasthash::FastMap;
 pub const NONE: u32 = u32::MAX;
 
 /// Groups up to this many unknowns are factored densely.
-pub const DENSE_MAX: usize = 48;
+pub const DENSE_MAX: usize = 12;
 
 /// The positions of a matrix's nonzero entries.
 #[derive(Clone, Debug, Default)]
 pub struct Pattern {
     pub n: usize,
     entries: Vec<(u32, u32)>,
+    /// (i, j) → handle: a table for small matrices, a map for large ones
+    table: Vec<u32>,
     map: FastMap<(u32, u32), u32>,
 }
 
@@ -29,6 +31,11 @@ impl Pattern {
     pub fn new(n: usize) -> Pattern {
         let mut p = Pattern {
             n,
+            table: if n <= DENSE_MAX {
+                vec![NONE; n * n]
+            } else {
+                Vec::new()
+            },
             ..Pattern::default()
         };
         for i in 0..n as u32 {
@@ -39,12 +46,23 @@ impl Pattern {
 
     /// The position of entry (`i`, `j`), created on first use.
     pub fn handle(&mut self, i: u32, j: u32) -> u32 {
-        if let Some(&h) = self.map.get(&(i, j)) {
+        let at = i as usize * self.n + j as usize;
+        if let Some(&h) = self.table.get(at).filter(|&&h| h != NONE) {
+            return h;
+        }
+        if self.table.is_empty()
+            && let Some(&h) = self.map.get(&(i, j))
+        {
             return h;
         }
         let h = self.entries.len() as u32;
         self.entries.push((i, j));
-        self.map.insert((i, j), h);
+        match self.table.get_mut(at) {
+            Some(slot) => *slot = h,
+            None => {
+                self.map.insert((i, j), h);
+            }
+        }
         h
     }
 
@@ -106,6 +124,8 @@ impl Lu {
 #[derive(Clone, Debug)]
 pub struct DenseLu {
     n: usize,
+    /// scratch for the substitutions
+    y: Vec<f64>,
     /// handle → row-major position
     pos: Vec<u32>,
     a: Vec<f64>,
@@ -120,6 +140,7 @@ impl DenseLu {
             pos: p.entries.iter().map(|&(i, j)| i * n as u32 + j).collect(),
             a: vec![0.0; n * n],
             perm: (0..n).collect(),
+            y: vec![0.0; n],
         }
     }
 
@@ -130,6 +151,7 @@ impl DenseLu {
             pos: s.orig.iter().map(|&(i, j)| i * n as u32 + j).collect(),
             a: vec![0.0; n * n],
             perm: (0..n).collect(),
+            y: vec![0.0; n],
         }
     }
 
@@ -180,13 +202,16 @@ impl DenseLu {
         true
     }
 
-    fn solve(&self, b: &mut [f64]) -> bool {
+    fn solve(&mut self, b: &mut [f64]) -> bool {
         let n = self.n;
         if b.len() < n {
             return false;
         }
         let a = &self.a;
-        let mut y: Vec<f64> = self.perm.iter().map(|&p| b[p]).collect();
+        let y = &mut self.y;
+        for (yi, &p) in y.iter_mut().zip(&self.perm) {
+            *yi = b[p];
+        }
         for i in 0..n {
             let mut s = y[i];
             for j in 0..i {
@@ -201,7 +226,7 @@ impl DenseLu {
             }
             y[i] = s / a[i * n + i];
         }
-        b[..n].copy_from_slice(&y);
+        b[..n].copy_from_slice(y);
         y.iter().all(|v| v.is_finite())
     }
 }
@@ -298,9 +323,9 @@ impl SparseLu {
         let mut nb_new = Vec::new();
         let mut lpos = Vec::new();
         let mut upos = Vec::new();
-        for k in 0..n {
+        for (k, &old) in order.iter().enumerate() {
             nb_start.push(nb_new.len() as u32);
-            let old = order[k] as usize;
+            let old = old as usize;
             let mut later: Vec<u32> = nbs[old].iter().map(|&u| inv[u as usize]).collect();
             later.sort_unstable();
             for &j in &later {
@@ -411,7 +436,7 @@ mod tests {
     fn system(n: usize) -> (Pattern, Vec<f64>, Vec<f64>) {
         let mut p = Pattern::new(n);
         let mut vals = vec![0.0; n];
-        let mut add = |p: &mut Pattern, vals: &mut Vec<f64>, i: usize, j: usize, v: f64| {
+        let add = |p: &mut Pattern, vals: &mut Vec<f64>, i: usize, j: usize, v: f64| {
             let h = p.handle(i as u32, j as u32) as usize;
             if vals.len() <= h {
                 vals.resize(h + 1, 0.0);

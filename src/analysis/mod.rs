@@ -258,57 +258,77 @@ pub fn analyze_with(c: &Circuit, g: &CircuitGraph, s: &Settings, reuse: bool) ->
         net_vmin: c.nets.iter().map(|n| n.fixed_min()).collect(),
         ..Analysis::default()
     };
+    let t0 = std::time::Instant::now();
     let groups = groups::groups(c, g);
-    // netlists and keys, then one solve per distinct key
-    let prepared: Vec<(netlist::Netlist, Vec<solve::PinDrive>, Vec<solve::Rated>)> = groups
+    let t_groups = t0.elapsed();
+    // a key per group from its raw parts, then one solve and one reading
+    // per distinct key; the other groups of a key get the reading with
+    // their own parts, nets and pins in place
+    let drives: Vec<Vec<solve::PinDrive>> = groups
         .par_iter()
-        .with_min_len(64)
-        .map(|grp| {
-            (
-                netlist::build(c, grp),
-                pin_drives(c, grp),
-                solve::rated(c, &grp.parts),
-            )
-        })
+        .with_min_len(256)
+        .map(|grp| pin_drives(c, grp))
         .collect();
+    let keys: Vec<Option<Vec<u64>>> = if reuse {
+        groups
+            .par_iter()
+            .zip(drives.par_iter())
+            .with_min_len(256)
+            .map(|(grp, d)| Some(reuse::key(c, grp, d)))
+            .collect()
+    } else {
+        vec![None; groups.len()]
+    };
     let mut index: HashMap<Vec<u64>, usize> = HashMap::default();
     let mut which: Vec<usize> = Vec::with_capacity(groups.len());
     let mut unique: Vec<usize> = Vec::new();
-    for (gi, (nl, d, r)) in prepared.iter().enumerate() {
-        if reuse {
-            let k = reuse::key(nl, d, r);
-            let next = unique.len();
-            let u = *index.entry(k).or_insert(next);
-            if u == next {
-                unique.push(gi);
-            }
-            which.push(u);
-        } else {
-            which.push(unique.len());
+    for (gi, k) in keys.into_iter().enumerate() {
+        let next = unique.len();
+        let u = match k {
+            Some(k) => *index.entry(k).or_insert(next),
+            None => next,
+        };
+        if u == next {
             unique.push(gi);
         }
+        which.push(u);
     }
-    let mut prepared: Vec<Option<_>> = prepared.into_iter().map(Some).collect();
-    let jobs: Vec<_> = unique
-        .iter()
-        .map(|&gi| prepared.get_mut(gi).and_then(Option::take))
-        .collect();
-    let solved: Vec<Arc<GroupSolution>> = jobs
-        .into_par_iter()
-        .map(|job| match job {
-            Some((nl, d, r)) => Arc::new(solve::solve(nl, &d, &r)),
-            None => Arc::new(solve::solve(netlist::build(c, &Group::default()), &[], &[])),
+    drop(index);
+    let t_keys = t0.elapsed();
+    let reps: Vec<(Arc<GroupSolution>, GroupAcc)> = unique
+        .par_iter()
+        .map(|&gi| {
+            let grp = &groups[gi];
+            let nl = netlist::build(c, grp);
+            let sol = solve::solve(nl, &drives[gi], &solve::rated(c, &grp.parts));
+            let acc = read_group(c, gi, grp, &sol);
+            (Arc::new(sol), acc)
         })
         .collect();
-    a.distinct_groups = solved.len();
-    a.solutions = which.iter().map(|&u| solved[u].clone()).collect();
-    // read every group, in parallel, merged in group order
+    let t_solve = t0.elapsed();
+    a.distinct_groups = reps.len();
+    a.solutions = which.iter().map(|&u| reps[u].0.clone()).collect();
+    // every group's reading, merged in group order
     let outs: Vec<GroupAcc> = groups
         .par_iter()
         .enumerate()
-        .with_min_len(64)
-        .map(|(gi, grp)| read_group(c, gi, grp, &a.solutions[gi]))
+        .with_min_len(256)
+        .map(|(gi, grp)| {
+            let u = which[gi];
+            let rep = unique[u];
+            let (sol, acc) = &reps[u];
+            let mut out = if rep == gi {
+                acc.clone()
+            } else {
+                instantiate(acc, &groups[rep], grp, gi)
+            };
+            if !sol.converged() || sol.edges.iter().any(|e| e.res.failed.is_some()) {
+                out.notes = nonconvergence(c, grp, sol);
+            }
+            out
+        })
         .collect();
+    drop(reps);
     let n_switches = c.parts.iter().filter(|p| p.kind.is_switch()).count();
     a.switches.reserve(n_switches);
     for (gi, acc) in outs.into_iter().enumerate() {
@@ -333,14 +353,28 @@ pub fn analyze_with(c: &Circuit, g: &CircuitGraph, s: &Settings, reuse: bool) ->
         a.floating_inputs.extend(acc.floating_inputs);
         a.early.extend(acc.notes);
     }
+    let t_read = t0.elapsed();
     a.groups = groups;
     rail_shorts(c, &mut a);
     thermal(c, s, &mut a);
+    if transient::trace() {
+        eprintln!(
+            "{} groups, {} distinct: groups {:?}, keys {:?}, solve {:?}, read+merge {:?}, thermal {:?}",
+            a.groups.len(),
+            a.distinct_groups,
+            t_groups,
+            t_keys - t_groups,
+            t_solve - t_keys,
+            t_read - t_solve,
+            t0.elapsed() - t_read
+        );
+    }
     a
 }
 
-/// What reading one group produced, before it is merged.
-#[derive(Default)]
+/// What reading one group produced, before it is merged. It holds no
+/// names (only ids), so that identical groups can share it.
+#[derive(Clone, Default)]
 struct GroupAcc {
     facts: facts::LocalFacts,
     switches: Vec<(PartId, SwitchInfo)>,
@@ -410,6 +444,105 @@ fn read_group(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution) -> Group
     read_diodes(c, grp, sol, &mut a);
     read_resistors(c, grp, sol, &mut a);
     read_driver_inputs(c, grp, sol, &mut a);
+    a
+}
+
+/// The same reading for another group with the same key: its parts,
+/// nets and controller pins in place of the representative's.
+fn instantiate(rep: &GroupAcc, rg: &Group, ig: &Group, gi: usize) -> GroupAcc {
+    let part = |p: PartId| -> PartId {
+        rg.parts
+            .binary_search(&p)
+            .ok()
+            .and_then(|i| ig.parts.get(i).copied())
+            .unwrap_or(p)
+    };
+    let net = |n: NetId| -> NetId {
+        rg.nets
+            .iter()
+            .position(|&x| x == n)
+            .and_then(|i| ig.nets.get(i).copied())
+            .unwrap_or(n)
+    };
+    let pin = |cp: &CtlPin| -> CtlPin {
+        rg.pins
+            .iter()
+            .position(|x| x == cp)
+            .and_then(|i| ig.pins.get(i).cloned())
+            .unwrap_or_else(|| cp.clone())
+    };
+    GroupAcc {
+        facts: rep.facts.remap(|p| Some(part(p))),
+        switches: rep
+            .switches
+            .iter()
+            .map(|(p, i)| {
+                let mut i = i.clone();
+                i.group = gi;
+                i.controls = i.controls.iter().map(|(c, inv)| (pin(c), *inv)).collect();
+                i.drivers = i.drivers.iter().map(&pin).collect();
+                i.pin_current = i.pin_current.as_ref().map(|(c, x)| (pin(c), *x));
+                (part(*p), i)
+            })
+            .collect(),
+        loads: rep
+            .loads
+            .iter()
+            .map(|l| LoadInfo {
+                part: part(l.part),
+                group: gi,
+                switches: l.switches.iter().map(|&q| part(q)).collect(),
+                reversed: l.reversed.iter().map(|&(d, x)| (part(d), x)).collect(),
+                ..l.clone()
+            })
+            .collect(),
+        turnoffs: rep
+            .turnoffs
+            .iter()
+            .map(|t| TurnOff {
+                switch: part(t.switch),
+                load: t.load.map(part),
+                group: gi,
+                path: t.path.iter().map(|&(p, e)| (part(p), e)).collect(),
+                ..t.clone()
+            })
+            .collect(),
+        legs: rep
+            .legs
+            .iter()
+            .map(|l| Leg {
+                high: part(l.high),
+                low: part(l.low),
+                mid: net(l.mid),
+                both_on: l
+                    .both_on
+                    .as_ref()
+                    .map(|(a, i)| (a.iter().map(|(c, s)| (pin(c), *s)).collect(), *i)),
+            })
+            .collect(),
+        floating_inputs: rep
+            .floating_inputs
+            .iter()
+            .map(|f| FloatingInput {
+                driver: part(f.driver),
+                pin: f.pin,
+                switches: f.switches.iter().map(|&q| part(q)).collect(),
+                controllers: f.controllers.iter().map(&pin).collect(),
+            })
+            .collect(),
+        extremes: rep
+            .extremes
+            .iter()
+            .map(|&(n, hi, lo)| (net(n), hi, lo))
+            .collect(),
+        truncated: rep.truncated,
+        notes: Vec::new(),
+    }
+}
+
+/// The analysis notes of a group whose solution is incomplete.
+fn nonconvergence(c: &Circuit, grp: &Group, sol: &GroupSolution) -> Vec<Finding> {
+    let mut a = GroupAcc::default();
     let failed = solve::failures(sol);
     if let Some(&(s, corner, mode)) = failed.first()
         && let Some(&p) = grp.parts.first()
@@ -457,7 +590,7 @@ fn read_group(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution) -> Group
             .parts([c.part(p).reference.clone()]),
         );
     }
-    a
+    a.notes
 }
 
 fn point(sw: &solve::LocalSwitch, state: usize, corner: Corner) -> Option<&Point> {
@@ -622,19 +755,15 @@ fn read_switches(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &m
             None => f.missing(pid, "v_gs_on", "its control net has no defined voltage in any pin state"),
         }
         if ls.i_max > 0.0 {
-            let st = ls
-                .best
-                .and_then(|b| sol.states.get(b as usize))
-                .map(|x| describe_state(c, grp, x))
-                .unwrap_or_default();
             f.set(
                 pid,
                 "i_on",
                 ls.i_max,
                 Current,
-                Some(format!(
-                    "largest current, motors stalled, rails at their maximum, with {st}"
-                )),
+                Some(
+                    "largest current over every pin state, motors stalled, rails at their maximum"
+                        .into(),
+                ),
             );
             if let Some(pt) = ls.best.and_then(|b| point(ls, b as usize, Corner::Max)) {
                 f.set(
@@ -873,10 +1002,10 @@ fn supply_of(c: &Circuit, pid: PartId) -> f64 {
     if own > 0.0 {
         own
     } else {
-        c.nets
+        c.fixed_nets
             .iter()
-            .filter_map(|n| n.fixed_max())
-            .fold(0.0f64, |a, b| a.max(b.abs()))
+            .map(|&(_, v)| v.abs())
+            .fold(0.0f64, f64::max)
     }
 }
 
@@ -1049,10 +1178,10 @@ fn read_edges(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut 
                         "e_clamp",
                         x.energy,
                         Energy,
-                        Some(format!(
-                            "absorbed at one turn-off of `{}`, stalled",
-                            c.part(q).reference
-                        )),
+                        Some(
+                            "absorbed at one turn-off of the switch it clamps, the load stalled"
+                                .into(),
+                        ),
                     );
                 }
                 if er.mode == last_mode && fsw.0 > 0.0 {
@@ -1063,11 +1192,7 @@ fn read_edges(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut 
                             "p_clamp",
                             pw,
                             Power,
-                            Some(format!(
-                                "e_clamp·f_pwm at the turn-off of `{}` ({})",
-                                c.part(q).reference,
-                                format_si(fsw.0, Frequency)
-                            )),
+                            Some(format!("e_clamp·f_pwm at {}", format_si(fsw.0, Frequency))),
                         );
                     }
                 }
@@ -1081,10 +1206,7 @@ fn read_edges(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut 
                             "i_fw",
                             x.i_peak,
                             Current,
-                            Some(format!(
-                                "current it takes over when `{}` turns off",
-                                c.part(q).reference
-                            )),
+                            Some("current it takes over when its switch turns off".into()),
                         );
                         let avg = if fsw.0 > 0.0 {
                             x.i_peak * (1.0 - fsw.1)
@@ -1132,10 +1254,7 @@ fn read_edges(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut 
                     "i_rr",
                     irr,
                     Current,
-                    Some(format!(
-                        "peak reverse-recovery current when `{}` turns on",
-                        c.part(q).reference
-                    )),
+                    Some("peak reverse-recovery current when its switch turns on".into()),
                 );
             }
         }
@@ -1302,13 +1421,14 @@ fn read_resistors(c: &Circuit, grp: &Group, sol: &GroupSolution, a: &mut GroupAc
                 }
             }
         }
-        if let Some((s, pw)) = worst {
-            let st = sol
-                .states
-                .get(s)
-                .map(|x| describe_state(c, grp, x))
-                .unwrap_or_default();
-            a.facts.set(r, "p_loss", pw.max(0.0), Power, Some(format!("largest continuous dissipation, motors running, rails at their maximum, with {st}")));
+        if let Some((_, pw)) = worst {
+            a.facts.set(
+                r,
+                "p_loss",
+                pw.max(0.0),
+                Power,
+                Some("largest continuous dissipation over every pin state, motors running, rails at their maximum".into()),
+            );
         }
     }
 }
@@ -1618,7 +1738,7 @@ pub fn facts_json(b: &crate::Built) -> serde_json::Value {
                     .map(|x| {
                         (
                             x.name.to_string(),
-                            serde_json::Value::String(x.reason.clone()),
+                            serde_json::Value::String(x.reason.to_string()),
                         )
                     })
                     .collect();

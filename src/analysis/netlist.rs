@@ -412,11 +412,12 @@ impl Builder<'_> {
 
     /// A ground node (for a controller without a ground pin).
     fn ground(&mut self) -> Nd {
-        let g = self
-            .c
-            .nets
+        let c = self.c;
+        let g = c
+            .fixed_nets
             .iter()
-            .position(|n| matches!(n.kind, NetKind::Ground));
+            .map(|&(n, _)| n)
+            .find(|&n| matches!(c.net(n).kind, NetKind::Ground));
         match g {
             Some(g) => self.node(g),
             None => {
@@ -468,9 +469,9 @@ fn running_emf(c: &Circuit, p: &crate::model::Part, r: f64) -> f64 {
         v
     } else {
         // both ends switched (a bridge): the largest rail on the board
-        c.nets
+        c.fixed_nets
             .iter()
-            .filter_map(|n| n.fixed_nominal())
+            .filter_map(|&(n, _)| c.net(n).fixed_nominal())
             .fold(0.0f64, |a, b| a.max(b.abs()))
     };
     (v - r * i).max(0.0)

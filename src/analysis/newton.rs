@@ -73,6 +73,10 @@ pub struct Engine<'a> {
     pub scale: f64,
     /// Newton iterations spent (for benchmarks).
     pub iterations: usize,
+    /// scratch: the fixed nodes' voltages, scaled
+    fixed: Vec<f64>,
+    /// scratch: the right-hand side being solved
+    b: Vec<f64>,
 }
 
 fn v_of(x: &[f64], fixed: &[f64], n: Nd) -> f64 {
@@ -93,6 +97,8 @@ impl<'a> Engine<'a> {
             gstep: 0.0,
             scale: 1.0,
             iterations: 0,
+            fixed: Vec::new(),
+            b: vec![0.0; nl.n],
         };
         e.init_junctions();
         e
@@ -161,7 +167,9 @@ impl<'a> Engine<'a> {
         let nl = self.nl;
         self.vals.iter_mut().for_each(|v| *v = 0.0);
         self.rhs.iter_mut().for_each(|v| *v = 0.0);
-        let fixed: Vec<f64> = ex.fixed.iter().map(|v| v * self.scale).collect();
+        let mut fixed = std::mem::take(&mut self.fixed);
+        fixed.clear();
+        fixed.extend(ex.fixed.iter().map(|v| v * self.scale));
         let mut noncon = false;
         for (k, e) in nl.elems.iter().enumerate() {
             let v = |i: usize| v_of(x, &fixed, e.t[i]);
@@ -287,6 +295,7 @@ impl<'a> Engine<'a> {
             let h = nl.pattern.diag(i);
             self.add(h, shunt);
         }
+        self.fixed = fixed;
         noncon
     }
 
@@ -330,12 +339,10 @@ impl<'a> Engine<'a> {
                 continue;
             }
             let mut fixed_part = 0.0;
-            for m in 0..3 {
-                match e.t[m] {
-                    Nd::Var(_) => self.add(e.h[r * 3 + m], jac[r][m]),
-                    Nd::Fix(j) => {
-                        fixed_part += jac[r][m] * fixed.get(j as usize).copied().unwrap_or(0.0)
-                    }
+            for (m, (&t, &jm)) in e.t.iter().zip(jac[r].iter()).enumerate() {
+                match t {
+                    Nd::Var(_) => self.add(e.h[r * 3 + m], jm),
+                    Nd::Fix(j) => fixed_part += jm * fixed.get(j as usize).copied().unwrap_or(0.0),
                 }
             }
             self.rhs_add(e.t[r], -(ceq[r] + fixed_part));
@@ -350,13 +357,25 @@ impl<'a> Engine<'a> {
         comp: Option<&Companion>,
         maxit: usize,
     ) -> bool {
-        let n = self.nl.n;
-        let mut b = vec![0.0; n];
+        let mut b = std::mem::take(&mut self.b);
+        let ok = self.newton_with(x, ex, comp, maxit, &mut b);
+        self.b = b;
+        ok
+    }
+
+    fn newton_with(
+        &mut self,
+        x: &mut [f64],
+        ex: &Excitation,
+        comp: Option<&Companion>,
+        maxit: usize,
+        b: &mut [f64],
+    ) -> bool {
         for it in 0..maxit {
             self.iterations += 1;
             let noncon = self.load(x, ex, comp);
             b.copy_from_slice(&self.rhs);
-            if !self.lu.solve(&self.vals, &mut b) {
+            if !self.lu.solve(&self.vals, b) {
                 return false;
             }
             let mut conv = it > 0 && !noncon;
@@ -371,7 +390,7 @@ impl<'a> Engine<'a> {
             if b.iter().any(|v| !v.is_finite()) {
                 return false;
             }
-            x.copy_from_slice(&b);
+            x.copy_from_slice(b);
             if conv {
                 return true;
             }

@@ -1,87 +1,97 @@
-//! Identical groups are solved once. A group's solution depends only on
-//! its netlist (devices, parameters, topology), its rails' corners, its
-//! pins' drive and the rated figures its regions are judged by; the key
-//! is all of these, exactly (values by their bits), in the group's own
-//! order. Two channels written alike get the same key; a hash collision
-//! cannot mix them up because the map compares whole keys.
+//! Identical groups are solved and read once. A group's solution and the
+//! facts read from it depend only on its parts (kinds, every rating and
+//! parameter, how their pins meet inside the group), the rails they reach
+//! and how its controller pins are driven. The key is all of these,
+//! exactly (values by their bits), in the group's own order; the names of
+//! parts, nets and pins are not in it, so a board's identical channels
+//! share one key. The map compares whole keys, so a hash collision cannot
+//! mix two groups up.
 
-use super::netlist::{Dev, Nd, Netlist, Role};
-use super::solve::{PinDrive, Rated};
+use super::groups::{Group, is_supply_pin};
+use super::solve::PinDrive;
+use crate::model::kinds::PinSpec;
+use crate::model::{Circuit, ParamValue};
+
+/// A word's bits, for a key.
+fn word(w: &str) -> u64 {
+    use std::hash::{Hash, Hasher};
+    let mut h = std::collections::hash_map::DefaultHasher::new();
+    w.hash(&mut h);
+    h.finish()
+}
 
 /// The canonical form of a group.
-pub fn key(nl: &Netlist, drives: &[PinDrive], rated: &[Rated]) -> Vec<u64> {
-    let mut k: Vec<u64> = Vec::with_capacity(8 + nl.elems.len() * 8);
-    let f = |x: f64| x.to_bits();
-    k.push(nl.n as u64);
-    k.push(nl.n_nets as u64);
-    k.push(nl.fixed.len() as u64);
-    for x in &nl.fixed {
-        k.extend([f(x.max), f(x.min), f(x.nom)]);
-    }
-    k.push(nl.part_start.len() as u64);
-    k.extend(nl.part_start.iter().map(|&x| x as u64));
-    for e in &nl.elems {
-        k.push(e.part as u64);
-        k.push(match e.role {
-            Role::Main => 0,
-            Role::SeriesR => 1,
-            Role::Body => 2,
-            Role::Avalanche => 3,
-            Role::Cgs => 4,
-            Role::Cgd => 5,
-            Role::Cds => 6,
-            Role::Out(i) => 16 + i as u64,
-        });
-        k.push(e.t.len() as u64);
-        for t in &e.t {
-            k.push(match t {
-                Nd::Var(i) => *i as u64,
-                Nd::Fix(i) => (1 << 40) | *i as u64,
+pub fn key(c: &Circuit, grp: &Group, drives: &[PinDrive]) -> Vec<u64> {
+    let mut k: Vec<u64> = Vec::with_capacity(16 + grp.parts.len() * 24);
+    k.push(grp.nets.len() as u64);
+    k.push(grp.pins.len() as u64);
+    let small = grp.nets.len() <= 32;
+    let map: crate::fasthash::FastMap<usize, usize> = if small {
+        Default::default()
+    } else {
+        grp.nets.iter().enumerate().map(|(i, &n)| (n, i)).collect()
+    };
+    let local = |net: usize| -> Option<usize> {
+        if small {
+            grp.nets.iter().position(|&n| n == net)
+        } else {
+            map.get(&net).copied()
+        }
+    };
+    const NONE: u64 = u64::MAX;
+    for &pid in &grp.parts {
+        let p = c.part(pid);
+        k.push(p.kind as u64);
+        for def in p.kind.keys() {
+            match p.get(def.name).map(|x| &x.value) {
+                Some(ParamValue::Num(v)) => k.push(v.to_bits()),
+                Some(ParamValue::Word(w)) => k.push(word(w)),
+                None => k.push(NONE),
+            }
+        }
+        k.push(p.pins.len() as u64);
+        for pin in &p.pins {
+            // which pin: its place in the kind's list, or for a controller
+            // its place among the group's pins (a supply pin by its role)
+            let which = match p.kind.pins() {
+                PinSpec::Fixed(list) => list
+                    .iter()
+                    .position(|(n, _)| *n == pin.name)
+                    .map_or(NONE, |i| i as u64),
+                PinSpec::Any => match grp
+                    .pins
+                    .iter()
+                    .position(|(m, n)| *m == pid && *n == *pin.name)
+                {
+                    Some(i) => 1000 + i as u64,
+                    None if is_supply_pin(&pin.name) => {
+                        let n = pin.name.to_ascii_uppercase();
+                        if n.starts_with("VSS") || n.starts_with("GND") {
+                            2
+                        } else {
+                            1
+                        }
+                    }
+                    None => 0,
+                },
+            };
+            k.push(which);
+            k.push(match local(pin.net) {
+                Some(i) => i as u64,
+                // a rail or ground by its identity: its corners come with it
+                None if c.net(pin.net).is_fixed() => (1 << 40) | pin.net as u64,
+                None => NONE - 1,
             });
         }
-        match &e.dev {
-            Dev::Res { g } => k.extend([1, f(*g)]),
-            Dev::Cap { c } => k.extend([2, f(*c)]),
-            Dev::Load { r, l, emf } => k.extend([3, f(*r), f(*l), f(*emf)]),
-            Dev::Diode(d) => k.extend([
-                4,
-                f(d.is),
-                f(d.n),
-                f(d.rs),
-                f(d.bv.unwrap_or(-1.0)),
-                f(d.tt),
-            ]),
-            Dev::Mos(m) => k.extend([
-                5,
-                f(m.polarity),
-                f(m.vto),
-                f(m.kp),
-                f(m.cgs),
-                f(m.cgd),
-                f(m.cds),
-            ]),
-            Dev::Bjt(q) => k.extend([6, f(q.polarity), f(q.is), f(q.bf), f(q.br), f(q.rc)]),
-            Dev::Pin {
-                pin,
-                level_max,
-                level_min,
-                r,
-            } => k.extend([7, *pin as u64, f(*level_max), f(*level_min), f(*r)]),
-            Dev::Drv { vth, r, invert } => k.extend([8, f(*vth), f(*r), *invert as u64]),
-        }
     }
-    k.push(drives.len() as u64);
     for d in drives {
         k.extend([
-            f(d.f_pwm),
-            f(d.duty_min),
-            f(d.duty_max),
-            d.partner.map_or(u64::MAX, |p| p as u64),
-            f(d.deadtime),
+            d.f_pwm.to_bits(),
+            d.duty_min.to_bits(),
+            d.duty_max.to_bits(),
+            d.partner.map_or(NONE, |p| p as u64),
+            d.deadtime.to_bits(),
         ]);
-    }
-    for r in rated {
-        k.extend([f(r.rds_on), f(r.vce_sat)]);
     }
     k
 }

@@ -514,32 +514,34 @@ fn run_edges(sol: &GroupSolution, drives: &[PinDrive]) -> Vec<EdgeRun> {
             .iter()
             .any(|p| p.corner == Corner::Max && p.state == 0 && !p.gated);
         let others_differ = sol.states.first().is_some_and(|r| *r != to);
-        if reset_off && others_differ && sol.n_pins > 1 {
-            if let Some(on) = sol.op(best as usize, Corner::Max, Mode::Stall) {
-                let res = edges::simulate(&EdgeSpec {
-                    nl,
-                    switch: sw.part,
-                    on,
-                    off_cmd: Command {
-                        from,
-                        to: &reset,
-                        high: &high,
-                        delay_rise: &delay,
-                    },
-                    f_pwm: 0.0,
-                    duty_max: 1.0,
-                    with_turn_on: false,
-                    ctl: pin as usize,
-                });
-                out.push(EdgeRun {
-                    switch: sw.part,
-                    kind: EdgeKind::Reset,
-                    mode: Mode::Stall,
-                    from: best,
-                    to: None,
-                    res,
-                });
-            }
+        if reset_off
+            && others_differ
+            && sol.n_pins > 1
+            && let Some(on) = sol.op(best as usize, Corner::Max, Mode::Stall)
+        {
+            let res = edges::simulate(&EdgeSpec {
+                nl,
+                switch: sw.part,
+                on,
+                off_cmd: Command {
+                    from,
+                    to: &reset,
+                    high: &high,
+                    delay_rise: &delay,
+                },
+                f_pwm: 0.0,
+                duty_max: 1.0,
+                with_turn_on: false,
+                ctl: pin as usize,
+            });
+            out.push(EdgeRun {
+                switch: sw.part,
+                kind: EdgeKind::Reset,
+                mode: Mode::Stall,
+                from: best,
+                to: None,
+                res,
+            });
         }
     }
     out

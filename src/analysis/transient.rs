@@ -46,6 +46,13 @@ pub const LOAD_STEP: f64 = 0.05;
 /// The most time steps one run may take.
 pub const MAX_STEPS: usize = 200_000;
 
+/// `ARMATURE_TRACE` set: the step control reports its rejections on
+/// stderr (for people debugging a circuit that will not simulate).
+pub fn trace() -> bool {
+    static ON: std::sync::OnceLock<bool> = std::sync::OnceLock::new();
+    *ON.get_or_init(|| std::env::var_os("ARMATURE_TRACE").is_some())
+}
+
 /// How a controller pin is driven over time.
 #[derive(Clone, Debug, PartialEq)]
 pub enum PinWave {
@@ -235,15 +242,12 @@ impl<'a> Sim<'a> {
         let mut bp_i = 0;
         let first_gap = bps.first().map_or(t_end - self.t, |b| b - self.t);
         if self.h <= 0.0 {
-            self.h = (first_gap / 10.0).min(h_max).min(1e-10).max(1e-15);
+            self.h = (first_gap / 10.0).min(h_max).clamp(1e-15, 1e-10);
         }
         self.after_breakpoint = true;
         // a new schedule starts like a breakpoint: no history to predict
         // from across it
         self.past.clear();
-        if std::env::var_os("ARMATURE_TRACE").is_some() {
-            eprintln!("run from t={:e} to {t_end:e} h={:e}", self.t, self.h);
-        }
         let n = self.nl.n;
         let mut xn = vec![0.0; n];
         while self.t < t_end * (1.0 - 1e-12) {
@@ -259,7 +263,7 @@ impl<'a> Sim<'a> {
             }
             let h_min = 1e-15_f64.max(1e-9 * (self.t.abs() + h));
             if h < h_min && !hits_bp {
-                if std::env::var_os("ARMATURE_TRACE").is_some() {
+                if trace() {
                     eprintln!("step too small at t={:e} h={h:e}", self.t);
                 }
                 return Err(TranError::StepTooSmall);
@@ -287,7 +291,7 @@ impl<'a> Sim<'a> {
                 self.eng.newton(&mut xn, &self.ex, Some(&comp), ITL4)
             };
             if !ok {
-                if std::env::var_os("ARMATURE_TRACE").is_some() {
+                if trace() {
                     eprintln!("newton failed at t={t_new:e} h={h:e}");
                 }
                 self.eng.js = js_saved;
@@ -297,7 +301,7 @@ impl<'a> Sim<'a> {
                     return Err(TranError::StepTooSmall);
                 }
                 self.after_breakpoint = true;
-                if std::env::var_os("ARMATURE_TRACE").is_some() && self.h < h_min {
+                if trace() && self.h < h_min {
                     eprintln!("newton gave up at t={:e}", self.t);
                 }
                 continue;
@@ -311,7 +315,7 @@ impl<'a> Sim<'a> {
             };
             let jump = self.load_jump(&xn, a0, trap);
             if (ratio > 1.0 || jump > 1.0) && h > 4.0 * h_min {
-                if std::env::var_os("ARMATURE_TRACE").is_some() && h < 1e-12 {
+                if trace() && h < 1e-12 {
                     eprintln!("reject t={:e} h={h:e} lte {ratio:e} jump {jump:e}", self.t);
                 }
                 self.eng.js = js_saved;
@@ -509,15 +513,6 @@ impl<'a> Sim<'a> {
             let lte = (zc[i] - zp[i]).abs() / div;
             let abs = if i < n { V_ABS } else { I_ABS };
             let tol = TRTOL * (RELTOL * zc[i].abs().max(z0[i].abs()) + abs);
-            if std::env::var_os("ARMATURE_TRACE2").is_some() && lte / tol > 1.0 {
-                eprintln!(
-                    "  lte comp {i} of {} (n={n}): zc {:e} zp {:e} z0 {:e}",
-                    zc.len(),
-                    zc[i],
-                    zp[i],
-                    z0[i]
-                );
-            }
             worst = worst.max(lte / tol);
         }
         worst

@@ -50,13 +50,15 @@ with shoot-through protection, or gate logic that cannot turn both on.
 pub const RULE: Rule = Rule { meta: &META, check };
 
 /// Legs with a pin assignment that turns both switches on.
-pub fn detect<'a>(
-    ctx: &'a Ctx,
-) -> Vec<(
+/// A leg, the pin assignment that makes current flow through both of its
+/// switches, and that current.
+pub type Through<'a> = (
     &'a crate::analysis::Leg,
     &'a [(crate::analysis::CtlPin, crate::analysis::PinState)],
     f64,
-)> {
+);
+
+pub fn detect<'a>(ctx: &'a Ctx) -> Vec<Through<'a>> {
     ctx.analysis
         .legs
         .iter()
