@@ -46,6 +46,13 @@ pub enum Command {
         path: PathBuf,
         #[arg(long, value_enum, default_value_t = FactsFormat::Human)]
         format: FactsFormat,
+        /// Print the simulated waveform of this switch's edge instead
+        /// (time, V_DS, V_GS, channel current, load current, clamp current)
+        #[arg(long, value_name = "REF")]
+        wave: Option<String>,
+        /// Which edge `--wave` prints
+        #[arg(long, value_enum, default_value_t = EdgeArg::Off, requires = "wave")]
+        edge: EdgeArg,
         #[command(flatten)]
         common: CommonArgs,
     },
@@ -109,6 +116,14 @@ pub enum FormatArg {
 pub enum FactsFormat {
     Human,
     Json,
+    /// only with `--wave`
+    Csv,
+}
+
+#[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]
+pub enum EdgeArg {
+    Off,
+    On,
 }
 
 #[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]
@@ -141,8 +156,10 @@ pub fn run(args: Vec<String>) -> i32 {
         Command::Facts {
             path,
             format,
+            wave,
+            edge,
             common,
-        } => facts(&path, format, &common),
+        } => facts(&path, format, wave.as_deref(), edge, &common),
         Command::Export {
             what: ExportWhat::Spice { file, part, common },
         } => export_spice(&file, part.as_deref(), &common),
@@ -511,7 +528,13 @@ fn rules(common: &CommonArgs) -> i32 {
     if p.errors.is_empty() { 0 } else { 2 }
 }
 
-fn facts(path: &Path, format: FactsFormat, common: &CommonArgs) -> i32 {
+fn facts(
+    path: &Path,
+    format: FactsFormat,
+    wave: Option<&str>,
+    edge: EdgeArg,
+    common: &CommonArgs,
+) -> i32 {
     let opts = profile(config_for(path, common).as_deref(), common).opts;
     let cache = LibraryCache::default();
     let shown = crate::shown_path(path);
@@ -531,13 +554,44 @@ fn facts(path: &Path, format: FactsFormat, common: &CommonArgs) -> i32 {
             2
         }
         Ok(b) => {
+            use crate::analysis::present;
+            if let Some(name) = wave {
+                let Some(pid) = b.circuit.part_id(name) else {
+                    eprintln!("error: `{name}` is not a part of {shown}");
+                    return 2;
+                };
+                let e = match edge {
+                    EdgeArg::Off => present::WaveEdge::Off,
+                    EdgeArg::On => present::WaveEdge::On,
+                };
+                return match present::wave(&b, pid, e) {
+                    Ok(w) => {
+                        match format {
+                            FactsFormat::Json => println!(
+                                "{}",
+                                serde_json::to_string_pretty(&present::wave_json(name, e, w))
+                                    .unwrap_or_default()
+                            ),
+                            _ => print!("{}", present::wave_csv(w)),
+                        }
+                        0
+                    }
+                    Err(msg) => {
+                        eprintln!("error: {msg}");
+                        2
+                    }
+                };
+            }
             match format {
                 FactsFormat::Json => println!(
                     "{}",
-                    serde_json::to_string_pretty(&crate::analysis::facts_json(&b))
-                        .unwrap_or_default()
+                    serde_json::to_string_pretty(&present::facts_json(&b)).unwrap_or_default()
                 ),
-                FactsFormat::Human => print!("{}", crate::analysis::facts_human(&b)),
+                FactsFormat::Human => print!("{}", present::facts_human(&b)),
+                FactsFormat::Csv => {
+                    eprintln!("error: `--format csv` is for `--wave`");
+                    return 2;
+                }
             }
             0
         }
