@@ -119,7 +119,12 @@ const DIODE_KEYS: &[KeyDef] = &[
     q("qrr", Charge, "reverse recovery charge"),
     q("vz", Voltage, "Zener (breakdown) voltage"),
     q("v_clamp", Voltage, "clamping voltage"),
-    q("p_max", Power, "power rating"),
+    q("p_max", Power, "power rating (continuous)"),
+    q(
+        "e_max",
+        Energy,
+        "single-pulse energy rating (a clamp's one-time surge)",
+    ),
     q(
         "rth_ja",
         ThermalResistance,

@@ -20,7 +20,13 @@ current spike, switching loss in the switch and radiated noise.
 
 ## How it is computed
 `trr ≤ 0.01 / f_pwm` [memory: rule of thumb], with `f_pwm` the frequency
-of the pin that drives the load's switch.
+of the pin that drives the load's switch. The cost is computed too: the
+diode is modelled with its stored charge (the charge-control model,
+`Q = TT·I` with `TT = qrr/if_avg`, else `trr/2` [memory]), and the
+switch's turn-on is simulated from the freewheeling state, so the
+recovered charge flows through the switch; the message gives the
+recovery energy in the switch, `e_rr = ∫V_DS·(I_D − I_load) dt`, and its
+power `e_rr·f_pwm`.
 
 ## Example
 ```
@@ -72,18 +78,41 @@ pub fn detect(ctx: &Ctx) -> Vec<Slow> {
     out
 }
 
+/// The switch whose turn-off the diode freewheels, and the recovery
+/// power at its turn-on (`e_rr·f_pwm`).
+pub fn recovery_cost(ctx: &Ctx, diode: usize) -> Option<(usize, f64)> {
+    let t = ctx
+        .analysis
+        .turnoffs
+        .iter()
+        .find(|t| t.path.iter().any(|(p, _)| *p == diode))?;
+    let f = ctx.analysis.facts.value(t.switch, "f_pwm")?;
+    let e = ctx.analysis.facts.value(t.switch, "e_rr")?;
+    Some((t.switch, e * f))
+}
+
 fn check(ctx: &Ctx) -> Vec<Finding> {
     detect(ctx)
         .into_iter()
         .map(|s| {
             let p = ctx.circuit.part(s.diode);
+            let cost = recovery_cost(ctx, s.diode)
+                .filter(|(_, pw)| *pw > 0.0)
+                .map(|(q, pw)| {
+                    format!(
+                        ": its stored charge puts {} into `{}` at the turn-ons",
+                        w(pw),
+                        ref_of(ctx, q)
+                    )
+                })
+                .unwrap_or_default();
             on_part(
                 &META,
                 ctx,
                 s.diode,
                 "slow recovery",
                 format!(
-                    "`{}` recovers in {}, more than 1 % of the {} period at {} ({})",
+                    "`{}` recovers in {}, more than 1 % of the {} period at {} ({}){cost}",
                     p.reference,
                     t(s.trr),
                     t(1.0 / s.f_pwm),

@@ -1,5 +1,6 @@
 //! Freewheel rules: where the inductive current goes at turn-off.
 
+pub mod clamp_overload;
 pub mod clamp_overvoltage;
 pub mod freewheel_diode_slow;
 pub mod freewheel_diode_underrated;
@@ -17,5 +18,6 @@ pub fn rules() -> Vec<Rule> {
         freewheel_diode_slow::RULE,
         freewheel_via_supply::RULE,
         clamp_overvoltage::RULE,
+        clamp_overload::RULE,
     ]
 }
