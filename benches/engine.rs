@@ -37,7 +37,11 @@ fn per_group(path: &str) {
         for _ in 0..runs {
             let s = solve::solve(netlist::build(c, grp), &drives, &rated);
             edges = s.edges.len();
-            steps = s.edges.iter().map(|e| e.res.wave_off.t.len() + e.res.wave_on.t.len()).sum();
+            steps = s
+                .edges
+                .iter()
+                .map(|e| e.res.wave_off.t.len() + e.res.wave_on.t.len())
+                .sum();
         }
         let per = t.elapsed().as_secs_f64() / runs as f64;
         // the operating points alone

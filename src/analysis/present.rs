@@ -95,6 +95,7 @@ pub fn facts_json(b: &crate::Built) -> serde_json::Value {
             .map(|(st, pt)| {
                 serde_json::json!({
                     "state": st,
+                    "index": pt.state,
                     "corner": pt.corner.name(),
                     "region": pt.region.name(),
                     "v_gs": q(pt.v_gs, "V"),
@@ -159,16 +160,21 @@ pub fn facts_human(b: &crate::Built) -> String {
         }
         let pts = switch_points(b, i);
         if !pts.is_empty() {
-            let _ = writeln!(s, "  operating points (device polarity):");
             let _ = writeln!(
                 s,
-                "    {:<7} {:<8} {:>9} {:>9} {:>10}   state",
-                "corner", "region", "V_GS", "V_DS", "I_D"
+                "  operating points (device polarity; `export spice --part {} --state #` writes one):",
+                p.reference
+            );
+            let _ = writeln!(
+                s,
+                "    {:<3} {:<7} {:<8} {:>9} {:>9} {:>10}   pins",
+                "#", "corner", "region", "V_GS", "V_DS", "I_D"
             );
             for (st, pt) in pts {
                 let _ = writeln!(
                     s,
-                    "    {:<7} {:<8} {:>9} {:>9} {:>10}   {st}",
+                    "    {:<3} {:<7} {:<8} {:>9} {:>9} {:>10}   {st}",
+                    pt.state,
                     pt.corner.name(),
                     pt.region.name(),
                     format_si(pt.v_gs, Voltage),

@@ -60,13 +60,20 @@ pub enum Command {
 
 #[derive(Subcommand, Debug)]
 pub enum ExportWhat {
-    /// An ngspice deck around one switch, with .meas lines for its on-state
-    /// current and its peak voltage at turn-off
+    /// The group of one switch as an ngspice deck, with the engine's device
+    /// models: its simulated turn-off (the default), or one operating point
     Spice {
         file: PathBuf,
         /// The switch (default: the first switch of an inductive load)
         #[arg(long)]
         part: Option<String>,
+        /// An operating point instead of the turn-off: the pin state's
+        /// number, in the order `armature facts` lists them (0 = reset)
+        #[arg(long, value_name = "N")]
+        state: Option<usize>,
+        /// The rails' corner of the operating point
+        #[arg(long, value_enum, default_value_t = CornerArg::Max, requires = "state")]
+        corner: CornerArg,
         #[command(flatten)]
         common: CommonArgs,
     },
@@ -121,6 +128,12 @@ pub enum FactsFormat {
 }
 
 #[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]
+pub enum CornerArg {
+    Max,
+    Min,
+}
+
+#[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]
 pub enum EdgeArg {
     Off,
     On,
@@ -161,8 +174,15 @@ pub fn run(args: Vec<String>) -> i32 {
             common,
         } => facts(&path, format, wave.as_deref(), edge, &common),
         Command::Export {
-            what: ExportWhat::Spice { file, part, common },
-        } => export_spice(&file, part.as_deref(), &common),
+            what:
+                ExportWhat::Spice {
+                    file,
+                    part,
+                    state,
+                    corner,
+                    common,
+                },
+        } => export_spice(&file, part.as_deref(), state, corner, &common),
     }
 }
 
@@ -598,7 +618,13 @@ fn facts(
     }
 }
 
-fn export_spice(path: &Path, part: Option<&str>, common: &CommonArgs) -> i32 {
+fn export_spice(
+    path: &Path,
+    part: Option<&str>,
+    state: Option<usize>,
+    corner: CornerArg,
+    common: &CommonArgs,
+) -> i32 {
     let opts = profile(config_for(path, common).as_deref(), common).opts;
     let cache = LibraryCache::default();
     let shown = crate::shown_path(path);
@@ -635,6 +661,39 @@ fn export_spice(path: &Path, part: Option<&str>, common: &CommonArgs) -> i32 {
             }
         },
     };
+    if let Some(st) = state {
+        let Some(gi) = b.analysis.groups.iter().position(|g| g.parts.contains(&sw)) else {
+            eprintln!(
+                "error: `{}` is in no control group",
+                b.circuit.part(sw).reference
+            );
+            return 2;
+        };
+        let c = match corner {
+            CornerArg::Max => crate::analysis::netlist::Corner::Max,
+            CornerArg::Min => crate::analysis::netlist::Corner::Min,
+        };
+        return match crate::analysis::spice::state_deck(
+            &b,
+            gi,
+            st,
+            c,
+            crate::analysis::op::Mode::Stall,
+        ) {
+            Ok((deck, _)) => {
+                print!("{deck}");
+                0
+            }
+            Err(e) => {
+                let n = b.analysis.solutions.get(gi).map_or(0, |s| s.states.len());
+                eprintln!(
+                    "error: {e} (the group has {n} pin states, 0 to {})",
+                    n.saturating_sub(1)
+                );
+                2
+            }
+        };
+    }
     let out = format!(
         "{}.wave",
         crate::analysis::spice::sanitize(&b.circuit.part(sw).reference)
