@@ -119,11 +119,7 @@ pub fn parse(file: &Arc<SourceFile>) -> Result<Config, Vec<Finding>> {
                     let id = yaml::scalar_text(rk).unwrap_or_default();
                     let p = yaml::child("severity", &id);
                     if !id.contains('/') && crate::checks::find(&id).is_none() {
-                        let ids: Vec<&'static str> = crate::checks::registry()
-                            .iter()
-                            .map(|r| r.meta.id)
-                            .collect();
-                        let hint = crate::suggest::did_you_mean(&id, ids.iter().copied());
+                        let hint = crate::checks::suggest_rule(&id);
                         errors.push(e(
                             doc.key_span(&p),
                             format!(

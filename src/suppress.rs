@@ -63,11 +63,7 @@ pub fn apply(c: &Circuit, findings: Vec<Finding>) -> (Vec<Finding>, usize) {
         for r in &s.rules {
             if !known_id(&r.node) {
                 all_known = false;
-                let ids: Vec<&'static str> = crate::checks::registry()
-                    .iter()
-                    .map(|r| r.meta.id)
-                    .collect();
-                let hint = crate::suggest::did_you_mean(&r.node, ids.iter().copied());
+                let hint = crate::checks::suggest_rule(&r.node);
                 kept.push(
                     Finding::new(
                         "suppression-unknown-rule",

@@ -92,7 +92,7 @@ fn compact_format_is_file_line_col_severity_rule_message() {
     let first = out.lines().next().unwrap_or("");
     assert_eq!(
         first,
-        "samples/structure_faulty.drive:12:25: warning[single-pin-net]: net `LIGHT_GATE` connects only to `R1`"
+        "samples/structure_faulty.drive:12:25: warning[net-touches-one-pin]: net `LIGHT_GATE` connects only to `R1`"
     );
 }
 
@@ -209,5 +209,16 @@ fn every_fact_in_json_is_a_value_with_a_unit() {
         }
         // facts that cannot be computed are absent, with a reason
         assert!(v["missing"].is_object());
+    }
+}
+
+#[test]
+fn renamed_rule_ids_are_unknown_with_a_pointer_to_the_new_name() {
+    for (old, new) in armature::checks::RENAMED {
+        let (code, _, err) = stdout(&["explain", old]);
+        assert_eq!(code, 2, "{old}");
+        assert!(err.contains(&format!("did you mean `{new}`")), "{err}");
+        assert!(armature::checks::find(old).is_none());
+        assert!(armature::checks::find(new).is_some());
     }
 }

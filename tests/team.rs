@@ -102,7 +102,7 @@ fn broken_rule_files_report_every_error_located_and_check_nothing() {
 
 #[test]
 fn config_is_discovered_from_nested_folders() {
-    // nested/armature.yaml turns single-pin-net into an error and fails on warnings
+    // nested/armature.yaml turns net-touches-one-pin into an error and fails on warnings
     let (code, out, _) = run(&[
         "check",
         "tests/fixtures/team/nested/deeper/lonely.drive",
@@ -110,7 +110,7 @@ fn config_is_discovered_from_nested_folders() {
         "compact",
     ]);
     assert_eq!(code, 1, "{out}");
-    assert!(out.contains("error[single-pin-net]"), "{out}");
+    assert!(out.contains("error[net-touches-one-pin]"), "{out}");
     // without the config it is a warning and exit 0
     let r = check_path(
         Path::new("tests/fixtures/team/other/../nested/deeper/lonely.drive"),
@@ -158,7 +158,7 @@ fn explicit_config_skips_discovery() {
         "compact",
     ]);
     assert_eq!(code, 1, "{out}");
-    assert!(out.contains("error[single-pin-net]"), "{out}");
+    assert!(out.contains("error[net-touches-one-pin]"), "{out}");
 }
 
 #[test]

@@ -54,6 +54,25 @@ pub fn registry() -> Vec<Rule> {
     v
 }
 
+/// Rules that were renamed: the old id, the id now. The old ids are
+/// unknown rules (no aliases); they only steer the suggestion.
+pub const RENAMED: &[(&str, &str)] = &[
+    ("single-pin-net", "net-touches-one-pin"),
+    ("unconnected-pin", "pin-not-listed"),
+    ("duplicate-ref", "designator-reused"),
+    ("unknown-part", "part-not-in-library"),
+];
+
+/// "did you mean …" for an unknown rule id: the new name of a renamed
+/// rule, else the closest built-in id.
+pub fn suggest_rule(id: &str) -> String {
+    if let Some((_, new)) = RENAMED.iter().find(|(old, _)| *old == id) {
+        return format!("did you mean `{new}`? (`{id}` was renamed)");
+    }
+    let ids: Vec<&'static str> = registry().iter().map(|r| r.meta.id).collect();
+    crate::suggest::did_you_mean(id, ids.iter().copied())
+}
+
 pub fn find(id: &str) -> Option<Rule> {
     registry().into_iter().find(|r| r.meta.id == id)
 }

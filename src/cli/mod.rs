@@ -500,11 +500,7 @@ fn explain(id: &str, common: &CommonArgs) -> i32 {
             0
         }
         None => {
-            let ids: Vec<&'static str> = crate::checks::registry()
-                .iter()
-                .map(|r| r.meta.id)
-                .collect();
-            let hint = crate::suggest::did_you_mean(id, ids.iter().copied());
+            let hint = crate::checks::suggest_rule(id);
             eprintln!(
                 "error: unknown rule `{id}`{}",
                 if hint.is_empty() {
@@ -514,8 +510,8 @@ fn explain(id: &str, common: &CommonArgs) -> i32 {
                 }
             );
             eprintln!("known rules:");
-            for i in ids {
-                eprintln!("  {i}");
+            for r in crate::checks::registry() {
+                eprintln!("  {}", r.meta.id);
             }
             2
         }

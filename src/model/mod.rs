@@ -154,7 +154,7 @@ pub struct Part {
     pub ref_span: Span,
     pub line: usize,
     /// `part=NAME` that no library has: (name, span of the value).
-    pub unknown_part: Option<Box<(String, Span)>>,
+    pub part_not_in_library: Option<Box<(String, Span)>>,
     /// Pins listed that the kind does not have: (name, span).
     pub unknown_pins: Vec<(String, Span)>,
     /// Required pins not listed.
@@ -369,7 +369,7 @@ impl Drafter<'_> {
             span,
             ref_span: st.reference.span,
             line,
-            unknown_part: None,
+            part_not_in_library: None,
             unknown_pins: Vec::new(),
             missing_pins: Vec::new(),
             pins_span: st.pins_span,
@@ -513,7 +513,7 @@ impl Drafter<'_> {
                             part.lib = Some(lp);
                         }
                     }
-                    None => part.unknown_part = Some(Box::new((name.clone(), p.value.span))),
+                    None => part.part_not_in_library = Some(Box::new((name.clone(), p.value.span))),
                 }
                 part_name = Some(name);
                 continue;

@@ -1,21 +1,21 @@
 //! Structure rules: the netlist's parts, pins and nets make sense.
 
-pub mod duplicate_ref;
+pub mod designator_reused;
 pub mod shorted_part;
-pub mod single_pin_net;
-pub mod unconnected_pin;
-pub mod unknown_part;
+pub mod net_touches_one_pin;
+pub mod pin_not_listed;
+pub mod part_not_in_library;
 pub mod unknown_pin;
 
 use super::Rule;
 
 pub fn rules() -> Vec<Rule> {
     vec![
-        unknown_part::RULE,
+        part_not_in_library::RULE,
         unknown_pin::RULE,
-        unconnected_pin::RULE,
-        single_pin_net::RULE,
-        duplicate_ref::RULE,
+        pin_not_listed::RULE,
+        net_touches_one_pin::RULE,
+        designator_reused::RULE,
         shorted_part::RULE,
     ]
 }

@@ -4,7 +4,7 @@ use crate::model::NetKind;
 use crate::suggest;
 
 pub static META: RuleMeta = RuleMeta {
-    id: "single-pin-net",
+    id: "net-touches-one-pin",
     family: "structure",
     severity: Severity::Warning,
     summary: "a net touches only one pin (often a typo of another net's name)",

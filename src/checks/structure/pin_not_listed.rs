@@ -2,7 +2,7 @@ use crate::checks::{Ctx, Rule, RuleMeta, finding};
 use crate::finding::{Finding, Severity};
 
 pub static META: RuleMeta = RuleMeta {
-    id: "unconnected-pin",
+    id: "pin-not-listed",
     family: "structure",
     severity: Severity::Error,
     summary: "a required pin of a part is not listed",

@@ -2,7 +2,7 @@ use crate::checks::{Ctx, Rule, RuleMeta, finding};
 use crate::finding::{Finding, Severity};
 
 pub static META: RuleMeta = RuleMeta {
-    id: "duplicate-ref",
+    id: "designator-reused",
     family: "structure",
     severity: Severity::Error,
     summary: "two parts share a designator",

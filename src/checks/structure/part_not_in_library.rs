@@ -3,7 +3,7 @@ use crate::finding::{Finding, Severity};
 use crate::suggest;
 
 pub static META: RuleMeta = RuleMeta {
-    id: "unknown-part",
+    id: "part-not-in-library",
     family: "structure",
     severity: Severity::Error,
     summary: "`part=` names no part in the loaded libraries",
@@ -51,7 +51,7 @@ pub fn detect<'a>(ctx: &'a Ctx) -> Vec<Unknown<'a>> {
     let c = ctx.circuit;
     let mut out = Vec::new();
     for (i, p) in c.parts.iter().enumerate() {
-        if let Some((name, span)) = p.unknown_part.as_deref() {
+        if let Some((name, span)) = p.part_not_in_library.as_deref() {
             let suggestion = suggest::closest(
                 name,
                 ctx.settings.known_part_names.iter().map(|s| s.as_str()),
