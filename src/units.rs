@@ -240,20 +240,30 @@ fn split_number(s: &str) -> Option<(&str, &str)> {
     Some((&s[..i], &s[i..]))
 }
 
-/// IEC 60062 letter code: `4k7`, `4R7`, `R47`, `2M2`, `1u5`, `4n7`, with an
-/// optional unit after the code (`4u7F`).
+/// IEC 60062 letter code (the resistance and capacitance codes of IEC
+/// 60062:2016, clause 4): the letter stands for the decimal point and the
+/// multiplier, at any place — `R47`, `4R7`, `47R`, `4K7`, `4k7`, `2M2`,
+/// `1u5`, `4n7` — with an optional unit after the code (`4u7F`). (`47K` and
+/// a bare prefix like `15p` read as a number with a prefix.)
 fn parse_letter_code(s: &str) -> Option<Result<Quantity, UnitError>> {
     let chars: Vec<char> = s.chars().collect();
     let pos = chars.iter().position(|c| !c.is_ascii_digit())?;
     let letter = *chars.get(pos)?;
+    let ohm = letter == 'R' || letter == 'r';
+    let rest = chars.get(pos + 1..)?;
+    let frac_len = rest.iter().take_while(|c| c.is_ascii_digit()).count();
     let factor = match letter {
         'R' | 'r' => 1.0,
+        // the resistor code writes kilo as a capital K (`4K7`); alone,
+        // `47K` is kelvin unless the key wants a resistance (`parse_as`)
+        'K' if frac_len > 0 => 1e3,
         c => prefix_factor(c)?,
     };
     let int: String = chars.get(..pos)?.iter().collect();
-    let rest = chars.get(pos + 1..)?;
-    let frac_len = rest.iter().take_while(|c| c.is_ascii_digit()).count();
-    if frac_len == 0 || (int.is_empty() && letter != 'R' && letter != 'r') {
+    // `47R`: the letter at the end (an integer number of ohms)
+    let r_at_end =
+        ohm && frac_len == 0 && !int.is_empty() && rest.iter().all(|c| c.is_alphabetic());
+    if frac_len == 0 && !r_at_end {
         return None;
     }
     let frac: String = rest.get(..frac_len)?.iter().collect();
@@ -306,7 +316,18 @@ pub fn parse(text: &str) -> Result<Quantity, UnitError> {
 /// Parse a quantity for a key of a known dimension. A bare number (with or
 /// without a prefix) takes the key's dimension; anything else must match.
 pub fn parse_as(text: &str, expected: Dimension) -> Result<Quantity, UnitError> {
-    let q = parse(text)?;
+    let t = text.trim();
+    // the resistor code's capital K (`47K`, IEC 60062) where a resistance is
+    // expected: kilo-ohms, not kelvin
+    if expected == Dimension::Resistance
+        && let Some(num) = t.strip_suffix('K')
+        && !num.is_empty()
+        && num.chars().all(|c| c.is_ascii_digit() || c == '.')
+        && let Ok(v) = num.parse::<f64>()
+    {
+        return Ok(Quantity::new(v * 1e3, Dimension::Resistance));
+    }
+    let q = parse(t)?;
     coerce(q, expected, text)
 }
 
@@ -473,6 +494,41 @@ mod tests {
         assert_eq!(r, Some(Quantity::new(100e3, Dimension::Resistance)));
         let c = parse_as("470u", Dimension::Capacitance).ok();
         assert!(c.is_some_and(|c| close(c.value, 470e-6)));
+    }
+
+    #[test]
+    fn iec_60062_letter_codes_in_full() {
+        // IEC 60062:2016 clause 4, the letter and digit code for resistance
+        // and capacitance values: the letter (R, K, M, G for resistors;
+        // p, n, u/µ, m for capacitors) marks the decimal point and the
+        // multiplier, at the start, in the middle or at the end.
+        let table: &[(&str, Dimension, f64)] = &[
+            ("R47", Dimension::Resistance, 0.47),
+            ("4R7", Dimension::Resistance, 4.7),
+            ("47R", Dimension::Resistance, 47.0),
+            ("1R", Dimension::Resistance, 1.0),
+            ("4K7", Dimension::Resistance, 4.7e3),
+            ("4k7", Dimension::Resistance, 4.7e3),
+            ("47K", Dimension::Resistance, 47e3),
+            ("47k", Dimension::Resistance, 47e3),
+            ("1M", Dimension::Resistance, 1e6),
+            ("2M2", Dimension::Resistance, 2.2e6),
+            ("1G5", Dimension::Resistance, 1.5e9),
+            ("1u5", Dimension::Capacitance, 1.5e-6),
+            ("15p", Dimension::Capacitance, 15e-12),
+            ("p68", Dimension::Capacitance, 0.68e-12),
+            ("4n7", Dimension::Capacitance, 4.7e-9),
+            ("470u", Dimension::Capacitance, 470e-6),
+            ("2m2", Dimension::Capacitance, 2.2e-3),
+        ];
+        for &(text, dim, want) in table {
+            match parse_as(text, dim) {
+                Ok(v) => assert!(close(v.value, want), "{text}: {} vs {want}", v.value),
+                Err(e) => panic!("{text}: {e}"),
+            }
+        }
+        // a capital K alone is still kelvin where a temperature is meant
+        assert_eq!(q("300K").dim, Dimension::Temperature);
     }
 
     #[test]

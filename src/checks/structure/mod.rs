@@ -1,10 +1,10 @@
 //! Structure rules: the netlist's parts, pins and nets make sense.
 
 pub mod designator_reused;
-pub mod shorted_part;
 pub mod net_touches_one_pin;
-pub mod pin_not_listed;
 pub mod part_not_in_library;
+pub mod pin_not_listed;
+pub mod shorted_part;
 pub mod unknown_pin;
 
 use super::Rule;
