@@ -193,3 +193,100 @@ fn mutations_of_every_channel_fire_the_expected_rule() {
     eprintln!("{cases} mutations checked");
     assert!(cases >= 20, "only {cases} mutations");
 }
+
+/// The rating rules, on every part of every clean sample: a rating set
+/// just below what the analysis computes (over the derating) fires the
+/// rule, one just above does not.
+#[test]
+fn rating_mutations_fire_the_rating_rules() {
+    let mut cases = 0;
+    for path in CLEAN {
+        let (text, file) = load(path);
+        let b = match build(&file, &Options::default(), &Default::default()) {
+            Ok(b) => b,
+            Err(_) => panic!("{path}"),
+        };
+        let c = &b.circuit;
+        let lines: Vec<&str> = text.lines().collect();
+        for (i, p) in c.parts.iter().enumerate() {
+            let line = lines.get(p.line).copied().unwrap_or("");
+            let line = line.split('#').next().unwrap_or("");
+            // a part whose line carries its own rating keeps it there
+            let strip = |key: &str| -> String {
+                line.split_whitespace()
+                    .filter(|w| !w.starts_with(&format!("{key}=")))
+                    .collect::<Vec<_>>()
+                    .join(" ")
+            };
+            let (rule, key, value, derate) = match p.kind {
+                Kind::Capacitor => {
+                    let pins: Vec<usize> = p.pins.iter().map(|x| x.net).collect();
+                    let hi = |n: usize| b.analysis.net_vmax[n].unwrap_or(0.0);
+                    let lo = |n: usize| b.analysis.net_vmin[n].unwrap_or(0.0);
+                    let v = (hi(pins[0]) - lo(pins[1]))
+                        .abs()
+                        .max((hi(pins[1]) - lo(pins[0])).abs());
+                    ("capacitor-overvoltage", "v_max", v, 0.8)
+                }
+                Kind::Resistor => match b.analysis.facts.value(i, "p_loss") {
+                    Some(pw) if pw > 1e-6 => ("resistor-overload", "p_max", pw, 0.5),
+                    _ => continue,
+                },
+                Kind::Mcu => match p.pin("VDD").and_then(|x| c.net(x.net).fixed_max()) {
+                    Some(v) => ("supply-overvoltage", "vdd_max", v, 1.0),
+                    None => continue,
+                },
+                _ => continue,
+            };
+            let unit = if key == "p_max" { "W" } else { "V" };
+            for (scale, fires) in [(0.9, true), (1.1, false)] {
+                let m = format!("{} {key}={:.6e}{unit}", strip(key), value / derate * scale);
+                let out = fired(path, &replace_line(&text, p.line, &m));
+                assert_eq!(
+                    out.iter().any(|(r, _)| r == rule),
+                    fires,
+                    "{path}: {} with {key} ×{scale}: {out:?}",
+                    p.reference
+                );
+                cases += 1;
+            }
+        }
+        // a pull-up from the highest rail onto every controller pin
+        let top = c
+            .nets
+            .iter()
+            .filter(|n| matches!(n.kind, armature::model::NetKind::Rail(_)))
+            .max_by(|a, b| {
+                a.fixed_max()
+                    .unwrap_or(0.0)
+                    .total_cmp(&b.fixed_max().unwrap_or(0.0))
+            });
+        for p in c.parts.iter().filter(|p| p.kind == Kind::Mcu) {
+            let supply = p
+                .pin("VDD")
+                .and_then(|x| c.net(x.net).fixed_max())
+                .unwrap_or(0.0);
+            let Some(top) = top.filter(|t| t.fixed_max().unwrap_or(0.0) > supply + 1.0) else {
+                continue;
+            };
+            for pin in p.pins.iter().filter(|x| !c.net(x.net).is_fixed()) {
+                let extra = format!(
+                    "{text}resistor RPU_X ({}, {}) 1k\n",
+                    top.name,
+                    c.net(pin.net).name
+                );
+                let out = fired(path, &extra);
+                assert!(
+                    out.iter().any(|(r, _)| r == "pin-overvoltage"),
+                    "{path}: 1 kΩ from {} onto {}.{} got {out:?}",
+                    top.name,
+                    p.reference,
+                    pin.name
+                );
+                cases += 1;
+            }
+        }
+    }
+    eprintln!("{cases} rating mutations checked");
+    assert!(cases >= 30, "only {cases}");
+}

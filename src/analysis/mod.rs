@@ -134,6 +134,21 @@ pub struct Leg {
     pub both_on: Option<(Vec<(CtlPin, PinState)>, f64)>,
 }
 
+/// A controller pin pulled beyond its supply or its ground: the current
+/// its protection diode takes.
+#[derive(Clone, Debug)]
+pub struct PinInjection {
+    pub pin: CtlPin,
+    /// Above the supply (else below ground).
+    pub above: bool,
+    pub current: f64,
+    /// The pin's voltage and the rail it passes, in that state.
+    pub v_pin: f64,
+    pub v_rail: f64,
+    /// The pin state, described, in which it is worst.
+    pub state: usize,
+}
+
 /// A gate driver's input that floats while the controller is in reset.
 #[derive(Clone, Debug)]
 pub struct FloatingInput {
@@ -165,6 +180,7 @@ pub struct Analysis {
     /// Groups whose pins exceed the enumeration limit.
     pub truncated: Vec<usize>,
     pub floating_inputs: Vec<FloatingInput>,
+    pub injections: Vec<(usize, PinInjection)>,
     /// How many distinct groups were solved (the rest reused a solution).
     pub distinct_groups: usize,
 }
@@ -351,6 +367,8 @@ pub fn analyze_with(c: &Circuit, g: &CircuitGraph, s: &Settings, reuse: bool) ->
         a.turnoffs.extend(acc.turnoffs);
         a.legs.extend(acc.legs);
         a.floating_inputs.extend(acc.floating_inputs);
+        a.injections
+            .extend(acc.injections.into_iter().map(|x| (gi, x)));
         a.early.extend(acc.notes);
     }
     let t_read = t0.elapsed();
@@ -382,6 +400,7 @@ struct GroupAcc {
     turnoffs: Vec<TurnOff>,
     legs: Vec<Leg>,
     floating_inputs: Vec<FloatingInput>,
+    injections: Vec<PinInjection>,
     extremes: Vec<(NetId, f64, f64)>,
     truncated: bool,
     notes: Vec<Finding>,
@@ -444,6 +463,7 @@ fn read_group(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution) -> Group
     read_diodes(c, grp, sol, &mut a);
     read_resistors(c, grp, sol, &mut a);
     read_driver_inputs(c, grp, sol, &mut a);
+    read_injections(c, grp, sol, &mut a);
     a
 }
 
@@ -528,6 +548,14 @@ fn instantiate(rep: &GroupAcc, rg: &Group, ig: &Group, gi: usize) -> GroupAcc {
                 pin: f.pin,
                 switches: f.switches.iter().map(|&q| part(q)).collect(),
                 controllers: f.controllers.iter().map(&pin).collect(),
+            })
+            .collect(),
+        injections: rep
+            .injections
+            .iter()
+            .map(|x| PinInjection {
+                pin: pin(&x.pin),
+                ..x.clone()
             })
             .collect(),
         extremes: rep
@@ -1478,6 +1506,62 @@ fn read_driver_inputs(c: &Circuit, grp: &Group, sol: &GroupSolution, a: &mut Gro
     }
 }
 
+/// Current into a controller pin's protection diodes, over every state.
+fn read_injections(c: &Circuit, grp: &Group, sol: &GroupSolution, a: &mut GroupAcc) {
+    let nl = &sol.nl;
+    for (k, e) in nl.elems.iter().enumerate() {
+        let (above, pk) = match e.role {
+            Role::EsdUp(i) => (true, i),
+            Role::EsdDown(i) => (false, i),
+            _ => continue,
+        };
+        let Some(&pid) = grp.parts.get(e.part as usize) else {
+            continue;
+        };
+        let Some(name) = c
+            .part(pid)
+            .pins
+            .get(pk as usize)
+            .map(|p| p.name.to_string())
+        else {
+            continue;
+        };
+        // the pin's node: the far end of the diode's series resistance
+        let rs = nl
+            .elems_of(e.part as usize)
+            .iter()
+            .find(|x| x.role == Role::SeriesR && x.t.get(1) == e.t.first());
+        let (pin_node, rail_node) = match (above, rs) {
+            (true, Some(r)) => (r.t[0], e.t[1]),
+            (true, None) => (e.t[0], e.t[1]),
+            (false, _) => (
+                e.t[1],
+                nl.elems_of(e.part as usize)
+                    .iter()
+                    .find(|x| x.role == Role::SeriesR && x.t.get(1) == e.t.first())
+                    .map_or(e.t[0], |r| r.t[0]),
+            ),
+        };
+        let mut worst: Option<PinInjection> = None;
+        for (s, ops) in sol.ops.iter().enumerate() {
+            for o in ops {
+                let i = newton::currents(nl, k, &o.x, &o.ex, None)[0];
+                if i > 10e-6 && worst.as_ref().is_none_or(|w| i > w.current) {
+                    worst = Some(PinInjection {
+                        pin: (pid, name.clone()),
+                        above,
+                        current: i,
+                        v_pin: o.v(pin_node),
+                        v_rail: o.v(rail_node),
+                        state: s,
+                    });
+                }
+            }
+        }
+        a.injections.extend(worst);
+    }
+}
+
 /// Two nodes joined through resistors only (a gate resistor after a
 /// driver's output).
 fn connected_by_resistors(nl: &netlist::Netlist, a: Nd, b: Nd) -> bool {
@@ -1527,6 +1611,36 @@ fn rail_shorts(c: &Circuit, a: &mut Analysis) {
                 }
                 _ => None,
             },
+            Kind::Resistor if p.pins.iter().all(|x| c.net(x.net).is_fixed()) => {
+                // a resistor between two rails: ΔV²/R at their extremes
+                let (a1, b1) = (p.net_of("1"), p.net_of("2"));
+                if let (Some(n1), Some(n2), Some(r)) = (a1, b1, p.num("value")) {
+                    let (h1, l1) = (
+                        c.net(n1).fixed_max().unwrap_or(0.0),
+                        c.net(n1).fixed_min().unwrap_or(0.0),
+                    );
+                    let (h2, l2) = (
+                        c.net(n2).fixed_max().unwrap_or(0.0),
+                        c.net(n2).fixed_min().unwrap_or(0.0),
+                    );
+                    let dv = (h1 - l2).abs().max((h2 - l1).abs());
+                    a.facts.set(
+                        pid,
+                        "p_loss",
+                        dv * dv / r.max(1e-6),
+                        Power,
+                        Some("ΔV²/R between its rails at their extremes".into()),
+                    );
+                }
+                match (fixed("1"), fixed("2"), p.num("value")) {
+                    (Some(x), Some(y), Some(r)) if (x - y).abs() > 0.0 && r < 0.1 => Some(format!(
+                        "{} across {}",
+                        format_si(r, Resistance),
+                        format_si((x - y).abs(), Voltage)
+                    )),
+                    _ => None,
+                }
+            }
             Kind::Resistor => match (fixed("1"), fixed("2"), p.num("value")) {
                 (Some(x), Some(y), Some(r)) if (x - y).abs() > 0.0 && r < 0.1 => Some(format!(
                     "{} across {}",

@@ -109,6 +109,9 @@ pub enum Role {
     Cds,
     /// A controller pin or a driver output (index within the part's pins).
     Out(u16),
+    /// A controller pin's protection diode to its supply, to its ground.
+    EsdUp(u16),
+    EsdDown(u16),
 }
 
 #[derive(Clone, Debug, PartialEq)]
@@ -383,6 +386,21 @@ impl Builder<'_> {
                         li,
                         Role::Out(k as u16),
                     );
+                    // the pin's protection diodes to its supply and its
+                    // ground: a pin pulled beyond them injects current
+                    let supply = p
+                        .pins
+                        .iter()
+                        .find(|x| {
+                            let n = x.name.to_ascii_uppercase();
+                            n.starts_with("VDD") || n.starts_with("VCC") || n.starts_with("VIO")
+                        })
+                        .map(|x| x.net);
+                    if let Some(sn) = supply {
+                        let vdd = self.node(sn);
+                        self.diode(sources::esd_diode(), out, vdd, li, Role::EsdUp(k as u16));
+                    }
+                    self.diode(sources::esd_diode(), rf, out, li, Role::EsdDown(k as u16));
                 }
             }
             Kind::Driver => {

@@ -75,6 +75,8 @@ impl<'a> Names<'a> {
             Role::Cgd => "_cgd".into(),
             Role::Cds => "_cds".into(),
             Role::Out(i) => format!("_o{i}"),
+            Role::EsdUp(i) => format!("_esdu{i}"),
+            Role::EsdDown(i) => format!("_esdd{i}"),
         };
         format!("{r}{role}_{k}")
     }
@@ -534,8 +536,12 @@ pub fn state_deck(
     let o = sol.op(state, corner, mode).ok_or("no such state")?;
     let names = Names::new(c, nl, &grp.nets, &grp.parts);
     let mut exp = Vec::new();
+    // a floating net's voltage is set by leakage alone (undefined): it is
+    // not an expected value
     for i in 0..grp.nets.len() {
-        exp.push((format!("v({})", names.node(Nd::Var(i as u32))), o.x[i]));
+        if !o.floating.get(i).copied().unwrap_or(false) {
+            exp.push((format!("v({})", names.node(Nd::Var(i as u32))), o.x[i]));
+        }
     }
     for k in 0..nl.elems.len() {
         if let Some(p) = current_probe(&names, k) {

@@ -9,6 +9,7 @@ pub mod bridge;
 pub mod common;
 pub mod freewheel;
 pub mod gate;
+pub mod rating;
 pub mod structure;
 pub mod supply;
 pub mod switch;
@@ -51,6 +52,7 @@ pub fn registry() -> Vec<Rule> {
     v.extend(switch::rules());
     v.extend(bridge::rules());
     v.extend(supply::rules());
+    v.extend(rating::rules());
     v
 }
 

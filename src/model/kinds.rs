@@ -178,6 +178,16 @@ const IC_KEYS: &[KeyDef] = &[
         Resistance,
         "output resistance of a pin (default 25 Ω)",
     ),
+    q(
+        "vin_th",
+        Voltage,
+        "a driver's input threshold (default half the logic level)",
+    ),
+    KeyDef {
+        name: "invert",
+        ty: KeyType::Word,
+        doc: "`true` for a driver whose output is the inverse of its input",
+    },
 ];
 
 const NO_KEYS: &[KeyDef] = &[];
@@ -325,6 +335,110 @@ impl Kind {
             Kind::Nmos | Kind::Pmos => Some(("d", "g", "s")),
             Kind::Npn | Kind::Pnp => Some(("c", "b", "e")),
             _ => None,
+        }
+    }
+}
+
+/// What reads a key: the rule that checks a rating (and the computed
+/// value it is compared with), or the model a parameter feeds. Every key
+/// of every kind has an entry (a test keeps it so), so no rating is
+/// accepted and then ignored.
+pub fn read_by(kind: Kind, key: &str) -> &'static str {
+    use Kind::*;
+    match (kind, key) {
+        (Nmos | Pmos, "vds_max") => {
+            "switch-overvoltage (rails' maximum blocked), clamp-overvoltage (simulated v_peak); the body diode's avalanche at 1.3 ×"
+        }
+        (Nmos | Pmos, "vgs_max") => "gate-overvoltage (largest |V_GS| over every state)",
+        (Nmos | Pmos, "id_max") => {
+            "switch-overcurrent (i_on, stalled, rails at max); the body diode's fit"
+        }
+        (Nmos | Pmos, "rds_on") => {
+            "model: K of the square law; the region's on-state limit; switch-overheat"
+        }
+        (Nmos | Pmos, "rds_on_vgs") => {
+            "model: K of the square law; gate-drive-low (v_gs_on below it)"
+        }
+        (Nmos | Pmos, "vgs_th") => "model: VTO; gate-drive-low (never turns on)",
+        (Nmos | Pmos, "vgs_plateau") => "informative (the simulated gate charge gives the plateau)",
+        (Nmos | Pmos, "qg") => "model: Cgs (with qgd); the simulated edges",
+        (Nmos | Pmos, "qgd") => "model: Cgd; the simulated edges",
+        (Nmos | Pmos, "tr" | "tf") => {
+            "switching loss and dead-time-short when no gate charge is given"
+        }
+        (Nmos | Pmos, "td_off") => "dead-time-short when no gate charge is given",
+        (Nmos | Pmos | Npn | Pnp, "coss") => "model: drain-source (collector-emitter) capacitance",
+        (_, "rth_ja") => "switch-overheat (tj = ambient + P·Rth)",
+        (_, "tj_max") => "switch-overheat (tj against tj_max less the margin)",
+        (Nmos | Pmos, "body_vf") => "model: body-diode fit",
+        (Nmos | Pmos, "body_trr") => "model: body-diode stored charge",
+        (Npn | Pnp, "vce_max") => "switch-overvoltage, clamp-overvoltage; the avalanche at 1.3 ×",
+        (Npn | Pnp, "ic_max") => "switch-overcurrent; model: Is and RC fit",
+        (Npn | Pnp, "hfe_min") => "model: BF; gate-drive-low (base current below I_C/hfe_min)",
+        (Npn | Pnp, "vce_sat") => "model: RC fit; the region's on-state limit",
+        (Npn | Pnp, "vbe_on") => "model: Is fit",
+        (Npn | Pnp, "ib_max") => "base-unlimited (the base current drawn)",
+        (Npn | Pnp, "tf") => "informative (the edges are simulated)",
+        (Diode | Zener | Tvs, "type") => {
+            "model: Schottky emission coefficient and no stored charge"
+        }
+        (Diode | Zener | Tvs, "vrrm") => "freewheel-diode-underrated (v_rev, every state)",
+        (Diode | Zener | Tvs, "if_avg") => {
+            "freewheel-diode-underrated (i_avg); model: Is and Rs fit"
+        }
+        (Diode | Zener | Tvs, "ifsm") => "freewheel-diode-underrated (i_fw_peak, stalled)",
+        (Diode | Zener | Tvs, "vf") => "model: Is and Rs fit",
+        (Diode | Zener | Tvs, "trr") => {
+            "freewheel-diode-slow (1 % of the PWM period); model: stored charge"
+        }
+        (Diode | Zener | Tvs, "qrr") => "model: stored charge",
+        (Diode | Zener | Tvs, "vz") => "model: breakdown; rail-short",
+        (Diode | Zener | Tvs, "v_clamp") => "model: breakdown; rail-short",
+        (Diode | Zener | Tvs, "p_max") => "clamp-overload (e_clamp·f_pwm); the Zener's fit",
+        (Diode | Zener | Tvs, "e_max") => "clamp-overload (one turn-off's e_clamp)",
+        (Resistor, "value") => "model: resistance",
+        (Resistor, "p_max") => "resistor-overload (p_loss, motors running, rails at max)",
+        (Resistor, "tol") => "informative",
+        (Capacitor, "value") => "model: capacitance; capacitor-overvoltage (the rail's rise)",
+        (Capacitor, "v_max") => "capacitor-overvoltage (largest voltage across it)",
+        (Capacitor, "esr") => "model: series resistance",
+        (Motor | Solenoid | Relay | Inductor, "r") => "model: winding resistance",
+        (Motor | Solenoid | Relay | Inductor, "l" | "value") => "model: inductance",
+        (Motor | Solenoid | Relay | Inductor, "v_rated") => "model: the running back-EMF",
+        (Motor | Solenoid | Relay | Inductor, "i_rated") => "model: the running back-EMF; i_cont",
+        (Motor | Solenoid | Relay | Inductor, "i_noload") => "informative",
+        (Motor | Solenoid | Relay | Inductor, "i_stall") => {
+            "informative (the stall current is solved)"
+        }
+        (Motor | Solenoid | Relay | Inductor, "r_tol") => {
+            "model: winding resistance at r·(1 − r_tol)"
+        }
+        (Motor | Solenoid | Relay | Inductor, "i_sat") => "informative",
+        (Mcu | Driver, "io_v") => "model: the pin's level",
+        (Mcu | Driver, "io_i_max") => "gate-pulldown-strong (pin current); model: R_out",
+        (Mcu | Driver, "vdd_max") => "supply-overvoltage (supply rail at max); a driver's R_out",
+        (Mcu | Driver, "r_out") => "model: output resistance",
+        (Mcu | Driver, "vin_th") => "model: a driver's input threshold",
+        (Mcu | Driver, "invert") => "model: an inverting driver",
+        _ => "",
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn every_key_is_read_by_something() {
+        for &k in Kind::ALL {
+            for def in k.keys() {
+                assert!(
+                    !read_by(k, def.name).is_empty(),
+                    "{}.{} is read by nothing",
+                    k.name(),
+                    def.name
+                );
+            }
         }
     }
 }

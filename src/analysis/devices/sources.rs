@@ -20,6 +20,14 @@ pub const DRIVER_IN_WIDTH: f64 = 0.05;
 /// state solves.
 pub const INDUCTOR_R_DEFAULT: f64 = 1e-3;
 
+/// A controller pin's protection diode: 0.7 V at 10 mA with 10 Ω in
+/// series [memory: typical CMOS input protection].
+pub fn esd_diode() -> super::Diode {
+    let (i, v, rs) = (10e-3, 0.7, 10.0);
+    let is = i / (((v - i * rs) / super::VT).exp() - 1.0);
+    super::Diode::new(is, 1.0, rs, None, 0.0)
+}
+
 /// A controller pin's output resistance: `r_out`, else `0.1·io_v/io_i_max`
 /// [memory], else 25 Ω [memory].
 pub fn pin_r_out(mcu: &Part, level: f64) -> f64 {

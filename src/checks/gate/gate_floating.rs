@@ -20,6 +20,9 @@ Miller capacitance; the switch half-turns-on, with the load running
 unasked and the switch dissipating in its linear region. It happens every
 time the controller resets, which is when nobody is watching.
 
+A gate driver's input is held to the same standard: when it floats in
+reset, the driver's output — and the switch behind it — is undefined.
+
 ## How it is computed
 The control network is solved with every controller pin open; a gate net
 with no conducting path to a rail, ground or a driven output is floating.
@@ -57,6 +60,51 @@ pub fn detect(ctx: &Ctx) -> Vec<PartId> {
 }
 
 fn check(ctx: &Ctx) -> Vec<Finding> {
+    let mut out = driver_inputs(ctx);
+    out.extend(switch_gates(ctx));
+    out
+}
+
+/// A gate driver's input that floats in reset: its output, and the gates
+/// behind it, are undefined.
+fn driver_inputs(ctx: &Ctx) -> Vec<Finding> {
+    let c = ctx.circuit;
+    ctx.analysis
+        .floating_inputs
+        .iter()
+        .map(|fi| {
+            let p = c.part(fi.driver);
+            let net = net_name(ctx, fi.driver, fi.pin);
+            let behind = fi
+                .switches
+                .iter()
+                .map(|&q| format!("`{}`", ref_of(ctx, q)))
+                .collect::<Vec<_>>()
+                .join(", ");
+            let mut f = crate::checks::finding(
+                &META,
+                ctx,
+                pin_span(ctx, p, fi.pin),
+                format!(
+                    "the input `{}` of driver `{}` floats while its controller pin is high-impedance (reset, programming): its output{} is undefined",
+                    fi.pin,
+                    p.reference,
+                    if behind.is_empty() { String::new() } else { format!(", and so {behind},") }
+                ),
+            )
+            .label(format!("`{net}` has no path to a defined level"))
+            .parts([p.reference.clone()]);
+            for &q in &fi.switches {
+                f = with_part(f, ctx, q, "driven by it".into());
+            }
+            let pull = if matches!(p.word("invert"), Some("true" | "yes" | "1")) { "pull-up" } else { "pull-down" };
+            let gnd = net_name(ctx, fi.driver, "gnd");
+            f.help(format!("add a {pull} of 10 kΩ–100 kΩ on `{net}` (to `{gnd}` for a pull-down), so the driver holds its switches off in reset"))
+        })
+        .collect()
+}
+
+fn switch_gates(ctx: &Ctx) -> Vec<Finding> {
     detect(ctx)
         .into_iter()
         .map(|sw| {
