@@ -364,6 +364,11 @@ pub fn format_si(value: f64, dim: Dimension) -> String {
     if !value.is_finite() {
         return format!("{value} {unit}").trim_end().to_string();
     }
+    // below the display resolution a value is zero (the numerical residue
+    // of a solve, not a quantity)
+    if value.abs() < display_floor(dim) {
+        return format!("0 {unit}").trim_end().to_string();
+    }
     match dim {
         Dimension::Temperature => return format!("{} °C", sig3(value)),
         Dimension::Number => return sig3(value),
@@ -391,6 +396,17 @@ pub fn format_si(value: f64, dim: Dimension) -> String {
         (value * 1e12, "p")
     };
     format!("{} {prefix}{unit}", sig3(scaled))
+}
+
+/// The smallest magnitude worth printing per dimension.
+fn display_floor(dim: Dimension) -> f64 {
+    match dim {
+        Dimension::Voltage => 1e-6,
+        Dimension::Current | Dimension::Power => 1e-9,
+        Dimension::Energy | Dimension::Time => 1e-12,
+        Dimension::Charge => 1e-15,
+        _ => 0.0,
+    }
 }
 
 /// Three significant digits, no trailing zeros: 13.8, 2.3, 40, 0.12.
@@ -494,6 +510,14 @@ mod tests {
         assert_eq!(r, Some(Quantity::new(100e3, Dimension::Resistance)));
         let c = parse_as("470u", Dimension::Capacitance).ok();
         assert!(c.is_some_and(|c| close(c.value, 470e-6)));
+    }
+
+    #[test]
+    fn values_below_the_display_resolution_print_as_zero() {
+        assert_eq!(format_si(2.3e-9, Dimension::Voltage), "0 V");
+        assert_eq!(format_si(1.07e-13, Dimension::Energy), "0 J");
+        assert_eq!(format_si(2.3e-6, Dimension::Voltage), "2.3 µV");
+        assert_eq!(format_si(-0.0, Dimension::Current), "0 A");
     }
 
     #[test]

@@ -375,6 +375,7 @@ pub fn analyze_with(c: &Circuit, g: &CircuitGraph, s: &Settings, reuse: bool) ->
     a.groups = groups;
     rail_shorts(c, &mut a);
     thermal(c, s, &mut a);
+    capacitors(c, &mut a);
     if transient::trace() {
         eprintln!(
             "{} groups, {} distinct: groups {:?}, keys {:?}, solve {:?}, read+merge {:?}, thermal {:?}",
@@ -969,6 +970,16 @@ fn read_loads(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut 
             }
             if worst > 0.0 {
                 reversed.push((dp, worst));
+                a.facts.set(
+                    dp,
+                    "i_on",
+                    worst,
+                    Current,
+                    Some(
+                        "forward current while its load is driven: it conducts the wrong way"
+                            .into(),
+                    ),
+                );
             }
         }
         let (f_pwm, duty_max) = switches
@@ -1102,6 +1113,17 @@ fn read_edges(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut 
             failed: r.failed.is_some(),
         };
         let f = &mut a.facts;
+        if let (Some(l), Some(e)) = (load, t.rails.iter().map(|x| x.1).reduce(f64::max))
+            && f.value(l, "e_returned").is_none_or(|v| e > v)
+        {
+            f.set(
+                l,
+                "e_returned",
+                e,
+                Energy,
+                Some("energy it returns into a supply rail at a turn-off".into()),
+            );
+        }
         let how = match er.kind {
             EdgeKind::Toggle => "simulated turn-off",
             EdgeKind::Reset => "simulated reset while it conducts",
@@ -1256,8 +1278,17 @@ fn read_edges(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut 
                             }),
                         );
                     }
-                    let fp = f.value(dp, "f_pwm").unwrap_or(0.0);
-                    f.set(dp, "f_pwm", fp.max(fsw.0), Frequency, None);
+                    let fp = f.value(dp, "f_pwm").unwrap_or(0.0).max(fsw.0);
+                    f.set(dp, "f_pwm", fp, Frequency, None);
+                    if fp > 0.0 {
+                        f.set(
+                            dp,
+                            "trr_limit",
+                            0.01 / fp,
+                            Time,
+                            Some("1 % of the PWM period [rule of thumb]".into()),
+                        );
+                    }
                 }
                 if er.mode == Mode::Stall {
                     let prev = f.value(dp, "i_fw_peak").unwrap_or(0.0);
@@ -1558,6 +1589,17 @@ fn read_injections(c: &Circuit, grp: &Group, sol: &GroupSolution, a: &mut GroupA
                 }
             }
         }
+        if let Some(w) = &worst
+            && a.facts.value(pid, "i_inject").is_none_or(|v| w.current > v)
+        {
+            a.facts.set(
+                pid,
+                "i_inject",
+                w.current,
+                Current,
+                Some("largest current into a pin's protection diodes over every state".into()),
+            );
+        }
         a.injections.extend(worst);
     }
 }
@@ -1654,6 +1696,74 @@ fn rail_shorts(c: &Circuit, a: &mut Analysis) {
         if let Some(h) = how {
             a.rail_shorts.push((pid, h));
         }
+    }
+}
+
+/// The largest voltage across every capacitor, and the rise of a rail into
+/// which a simulated turn-off returns a load's energy: from `V` to
+/// `sqrt(V² + 2E/C)`, the energy balance of the rail's capacitance `C`.
+fn capacitors(c: &Circuit, a: &mut Analysis) {
+    let mut returned: HashMap<NetId, f64> = HashMap::default();
+    for t in &a.turnoffs {
+        for &(net, e) in &t.rails {
+            let slot = returned.entry(net).or_insert(0.0);
+            *slot = slot.max(e);
+        }
+    }
+    let cap_on = |net: NetId| -> f64 {
+        c.net(net)
+            .conns
+            .iter()
+            .filter_map(|&(q, _)| {
+                let p = c.part(q);
+                (p.kind == Kind::Capacitor && p.pins.iter().all(|x| c.net(x.net).is_fixed()))
+                    .then(|| p.num("value"))
+                    .flatten()
+            })
+            .sum()
+    };
+    for (i, p) in c.parts.iter().enumerate() {
+        if p.kind != Kind::Capacitor {
+            continue;
+        }
+        let (Some(n1), Some(n2)) = (p.net_of("1"), p.net_of("2")) else {
+            continue;
+        };
+        let hi = |n: usize| a.net_vmax.get(n).copied().flatten().unwrap_or(0.0);
+        let lo = |n: usize| a.net_vmin.get(n).copied().flatten().unwrap_or(0.0);
+        let v = (hi(n1) - lo(n2)).abs().max((hi(n2) - lo(n1)).abs());
+        let mut rise = 0.0f64;
+        for n in [n1, n2] {
+            if let Some(&e) = returned.get(&n) {
+                let cap = cap_on(n);
+                if cap > 0.0 {
+                    let v0 = hi(n).abs();
+                    rise = rise.max((v0 * v0 + 2.0 * e / cap).sqrt() - v0);
+                }
+            }
+        }
+        if rise > 0.0 {
+            a.facts.set(
+                i,
+                "v_rise",
+                rise,
+                Voltage,
+                Some(
+                    "its rail's rise when a turn-off returns a load's energy: sqrt(V² + 2E/C) − V"
+                        .into(),
+                ),
+            );
+        }
+        a.facts.set(
+            i,
+            "v_across",
+            v + rise,
+            Voltage,
+            Some(
+                "largest voltage across it over every state and corner, with its rail's rise"
+                    .into(),
+            ),
+        );
     }
 }
 
@@ -1754,6 +1864,20 @@ fn thermal(c: &Circuit, s: &Settings, a: &mut Analysis) {
                 p_sw,
                 Power,
                 Some("(e_on + e_off + e_rr + e_aval)·f_pwm".into()),
+            );
+            a.facts.set(
+                pid,
+                "p_rr",
+                e_rr * f,
+                Power,
+                Some("e_rr·f_pwm: the freewheel path's recovery at every turn-on".into()),
+            );
+            a.facts.set(
+                pid,
+                "p_aval",
+                e_aval * f,
+                Power,
+                Some("e_aval·f_pwm: its own breakdown at every turn-off".into()),
             );
         }
         let limit = p.num("tj_max").unwrap_or(150.0) + 300.0;

@@ -73,6 +73,9 @@ pub struct LocalSwitch {
     pub drivers: Vec<u32>,
     /// The state (max corner, stall) with its largest current.
     pub best: Option<u32>,
+    /// The state its edges start from: the one in which it carries the
+    /// most load current (not a shoot-through current that no load draws).
+    pub edge_from: Option<u32>,
     pub i_max: f64,
     /// Running mode: the largest current and its point.
     pub i_run: f64,
@@ -329,6 +332,36 @@ fn read_switches(sol: &GroupSolution, rated: &[Rated], drives: &[PinDrive]) -> V
                 }
             }
         }
+        // the state its edges start from: most current that loads draw
+        let loads: Vec<usize> = (0..nl.elems.len())
+            .filter(|&k| matches!(nl.elems[k].dev, Dev::Load { .. }))
+            .collect();
+        if loads.is_empty() {
+            sw.edge_from = sw.best;
+        } else {
+            let mut best_score = 0.0f64;
+            for s in 0..sol.states.len() {
+                if sol.is_reset(s) {
+                    continue;
+                }
+                let Some(o) = sol.op(s, Corner::Max, Mode::Stall) else {
+                    continue;
+                };
+                let i_sw = switch_vi(nl, k, o).2.abs();
+                let i_loads: f64 = loads
+                    .iter()
+                    .map(|&l| newton::currents(nl, l, &o.x, &o.ex, None)[0].abs())
+                    .sum();
+                let score = i_sw.min(i_loads);
+                if score > best_score {
+                    best_score = score;
+                    sw.edge_from = Some(s as u32);
+                }
+            }
+            if sw.edge_from.is_none() {
+                sw.edge_from = sw.best;
+            }
+        }
         // running: the largest current at the max corner
         for s in 0..sol.states.len() {
             if sol.is_reset(s) {
@@ -428,7 +461,7 @@ fn run_edges(sol: &GroupSolution, drives: &[PinDrive]) -> Vec<EdgeRun> {
     let nl = &sol.nl;
     let mut out = Vec::new();
     for sw in &sol.switches {
-        let (Some(best), Some(&(pin, _))) = (sw.best, sw.controls.first()) else {
+        let (Some(best), Some(&(pin, _))) = (sw.edge_from, sw.controls.first()) else {
             continue;
         };
         if sw.i_max < I_LOAD_MIN {

@@ -107,5 +107,72 @@ pub fn run_all(ctx: &Ctx) -> Vec<Finding> {
         })
         .collect();
     let per_rule: Vec<Vec<Finding>> = enabled.par_iter().map(|r| (r.check)(ctx)).collect();
-    per_rule.into_iter().flatten().collect()
+    let mut all: Vec<Finding> = per_rule.into_iter().flatten().collect();
+    link_causes(&mut all);
+    all
+}
+
+/// Faults that cause others, with how the consequence names them.
+const CAUSES: &[(&str, &str)] = &[
+    ("freewheel-reversed", "a freewheel diode fitted backwards"),
+    ("shoot-through", "the leg's shoot-through"),
+    ("gate-pulldown-strong", "the too-strong gate pull-down"),
+    ("freewheel-missing", "the missing freewheel path"),
+];
+
+/// Findings that follow from another fault on the same parts.
+const CONSEQUENCES: &[&str] = &[
+    "switch-overcurrent",
+    "switch-overheat",
+    "gate-drive-low",
+    "freewheel-diode-underrated",
+    "clamp-overvoltage",
+];
+
+/// When one fault causes another (a diode fitted backwards → a switch
+/// far over its current, a strong pull-down → a switch in its linear
+/// region), the consequence's message names the cause and its help gives
+/// the cause's fix.
+fn link_causes(all: &mut [Finding]) {
+    // in the order of CAUSES: the first cause that applies is named
+    let causes: Vec<(usize, &'static str)> = CAUSES
+        .iter()
+        .flat_map(|(r, d)| {
+            all.iter()
+                .enumerate()
+                .filter(move |(_, f)| f.rule == *r)
+                .map(move |(i, _)| (i, *d))
+        })
+        .collect();
+    if causes.is_empty() {
+        return;
+    }
+    for k in 0..all.len() {
+        if !CONSEQUENCES.contains(&all[k].rule.as_str()) {
+            continue;
+        }
+        let Some(primary) = all[k].parts.first().cloned() else {
+            continue;
+        };
+        let Some(&(ci, desc)) = causes.iter().find(|(ci, _)| {
+            let c = &all[*ci];
+            c.file.name == all[k].file.name && c.parts.contains(&primary)
+        }) else {
+            continue;
+        };
+        let (rule, help, file) = (
+            all[ci].rule.clone(),
+            all[ci].help.clone(),
+            all[ci].file.name.clone(),
+        );
+        let f = &mut all[k];
+        if f.message.contains(&rule) || f.file.name != file {
+            continue;
+        }
+        f.message
+            .push_str(&format!("; a consequence of {desc} (`{rule}`)"));
+        if let Some(h) = help {
+            f.help = Some(format!("fix the cause first: {h}"));
+        }
+    }
 }

@@ -62,7 +62,7 @@ pub fn detect<'a>(ctx: &'a Ctx) -> Vec<Clamp<'a>> {
     let mut out: Vec<Clamp<'a>> = Vec::new();
     for tt in &ctx.analysis.turnoffs {
         // with no path at all, `freewheel-missing` reports it
-        if tt.path.is_empty() {
+        if tt.path.is_empty() || tt.t_off.is_none() {
             continue;
         }
         let p = ctx.circuit.part(tt.switch);

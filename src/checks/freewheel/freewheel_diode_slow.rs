@@ -65,7 +65,7 @@ pub fn detect(ctx: &Ctx) -> Vec<Slow> {
         };
         let Some(trr) = p.num("trr") else { continue };
         // 1 % of the period [memory: rule of thumb]
-        let limit = 0.01 / f;
+        let limit = ctx.analysis.facts.value(i, "trr_limit").unwrap_or(0.01 / f);
         if trr > limit {
             out.push(Slow {
                 diode: i,
@@ -86,9 +86,7 @@ pub fn recovery_cost(ctx: &Ctx, diode: usize) -> Option<(usize, f64)> {
         .turnoffs
         .iter()
         .find(|t| t.path.iter().any(|(p, _)| *p == diode))?;
-    let f = ctx.analysis.facts.value(t.switch, "f_pwm")?;
-    let e = ctx.analysis.facts.value(t.switch, "e_rr")?;
-    Some((t.switch, e * f))
+    Some((t.switch, ctx.analysis.facts.value(t.switch, "p_rr")?))
 }
 
 fn check(ctx: &Ctx) -> Vec<Finding> {
@@ -96,8 +94,8 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
         .into_iter()
         .map(|s| {
             let p = ctx.circuit.part(s.diode);
-            let cost = recovery_cost(ctx, s.diode)
-                .filter(|(_, pw)| *pw > 0.0)
+            let rc = recovery_cost(ctx, s.diode).filter(|(_, pw)| *pw > 0.0);
+            let cost = rc
                 .map(|(q, pw)| {
                     format!(
                         ": its stored charge puts {} into `{}` at the turn-ons",
@@ -106,21 +104,26 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
                     )
                 })
                 .unwrap_or_default();
-            on_part(
+            let f = on_part(
                 &META,
                 ctx,
                 s.diode,
                 "slow recovery",
                 format!(
-                    "`{}` recovers in {}, more than 1 % of the {} period at {} ({}){cost}",
+                    "`{}` recovers in {}, longer than {} (1 % of the PWM period at {}){cost}",
                     p.reference,
                     t(s.trr),
-                    t(1.0 / s.f_pwm),
-                    hz(s.f_pwm),
-                    t(s.limit)
+                    t(s.limit),
+                    hz(s.f_pwm)
                 ),
-            )
-            .help(format!(
+            );
+            let f = match rc {
+                Some((q, _)) => {
+                    with_part(f, ctx, q, "sweeps out its charge at every turn-on".into())
+                }
+                None => f,
+            };
+            f.help(format!(
                 "use a Schottky diode, or a fast diode with trr ≤ {}",
                 t(s.limit)
             ))

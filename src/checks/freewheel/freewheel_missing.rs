@@ -75,6 +75,7 @@ pub fn detect<'a>(ctx: &'a Ctx) -> Vec<Missing<'a>> {
         let inductive = ctx.circuit.part(load).kind.is_inductive_load();
         if !inductive
             || !t.path.is_empty()
+            || t.t_off.is_none()
             || reversed.contains(&load)
             || t.failed
             || !seen.insert(load)

@@ -53,6 +53,7 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
     let mut out = Vec::new();
     {
         for (l, d, i) in detect(ctx) {
+            let i = ctx.analysis.facts.value(d, "i_on").unwrap_or(i);
             let dp = ctx.circuit.part(d);
             let (an, kn) = (net_name(ctx, d, "a"), net_name(ctx, d, "k"));
             let sw = l.switches.first().copied();

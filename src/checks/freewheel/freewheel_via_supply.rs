@@ -79,6 +79,7 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
         .into_iter()
         .filter_map(|(tt, x, e)| {
             let load = tt.load?;
+            let e = ctx.analysis.facts.value(load, "e_returned").unwrap_or(e);
             let through = tt
                 .path
                 .iter()

@@ -55,57 +55,22 @@ pub struct CapOver {
 }
 
 pub fn detect(ctx: &Ctx) -> Vec<CapOver> {
-    let c = ctx.circuit;
-    let a = ctx.analysis;
     let d = ctx.settings.derating.voltage;
-    // energy returned into each rail, and each rail's capacitance
-    let mut returned: std::collections::HashMap<usize, f64> = std::collections::HashMap::new();
-    for t in &a.turnoffs {
-        for &(net, e) in &t.rails {
-            let slot = returned.entry(net).or_insert(0.0);
-            *slot = slot.max(e);
-        }
-    }
-    let cap_on = |net: usize| -> f64 {
-        c.net(net)
-            .conns
-            .iter()
-            .filter_map(|&(q, _)| {
-                let p = c.part(q);
-                (p.kind == Kind::Capacitor && p.pins.iter().all(|x| c.net(x.net).is_fixed()))
-                    .then(|| p.num("value"))
-                    .flatten()
+    let f = &ctx.analysis.facts;
+    ctx.circuit
+        .parts
+        .iter()
+        .enumerate()
+        .filter(|(_, p)| p.kind == Kind::Capacitor)
+        .filter_map(|(i, p)| {
+            let v = f.value(i, "v_across")?;
+            let o = over(p, i, "v_max", v, Dimension::Voltage, d)?;
+            Some(CapOver {
+                over: o,
+                rise: f.value(i, "v_rise").unwrap_or(0.0),
             })
-            .sum()
-    };
-    let mut out = Vec::new();
-    for (i, p) in c.parts.iter().enumerate() {
-        if p.kind != Kind::Capacitor || p.num("v_max").is_none() {
-            continue;
-        }
-        let (Some(n1), Some(n2)) = (p.net_of("1"), p.net_of("2")) else {
-            continue;
-        };
-        let hi = |n: usize| a.net_vmax.get(n).copied().flatten().unwrap_or(0.0);
-        let lo = |n: usize| a.net_vmin.get(n).copied().flatten().unwrap_or(0.0);
-        let mut v = (hi(n1) - lo(n2)).abs().max((hi(n2) - lo(n1)).abs());
-        let mut rise = 0.0;
-        for n in [n1, n2] {
-            if let Some(&e) = returned.get(&n) {
-                let cap = cap_on(n);
-                if cap > 0.0 {
-                    let v0 = hi(n).abs();
-                    let r = (v0 * v0 + 2.0 * e / cap).sqrt() - v0;
-                    rise = f64::max(rise, r);
-                }
-            }
-        }
-        v += rise;
-        if let Some(o) = over(p, i, "v_max", v, Dimension::Voltage, d) {
-            out.push(CapOver { over: o, rise });
-        }
-    }
-    out
+        })
+        .collect()
 }
 
 fn check(ctx: &Ctx) -> Vec<Finding> {

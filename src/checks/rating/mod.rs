@@ -57,8 +57,13 @@ pub fn over(
     })
 }
 
-/// "`C1` sees 26.4 V across it, above 80 % of its 16 V rating (12.8 V)".
+/// "`C1` sees up to 26.4 V, above 80 % of its 16 V `v_max` rating
+/// (12.8 V)"; `context` follows the value (" (`M1` stalled)").
 pub fn message(p: &Part, o: &Over, what: &str) -> String {
+    message_in(p, o, what, "")
+}
+
+pub fn message_in(p: &Part, o: &Over, what: &str, context: &str) -> String {
     let f = |x: f64| format_si(x, o.dim);
     let share = if o.derate < 1.0 {
         format!("{} of ", percent(o.derate))
@@ -76,7 +81,7 @@ pub fn message(p: &Part, o: &Over, what: &str) -> String {
         String::new()
     };
     format!(
-        "`{}` {what} {}, above {share}its {} `{}` rating{assumed}{limit}",
+        "`{}` {what} {}{context}, above {share}its {} `{}` rating{assumed}{limit}",
         p.reference,
         f(o.value),
         f(o.rating),

@@ -91,49 +91,30 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
         .into_iter()
         .map(|o| {
             let p = ctx.circuit.part(o.switch);
-            let why = o
+            let key = if p.kind.is_mos() { "id_max" } else { "ic_max" };
+            let over = crate::checks::rating::Over {
+                part: o.switch,
+                key,
+                rating: o.rating,
+                derate: d.current,
+                limit: o.limit,
+                value: o.i_on,
+                dim: crate::units::Dimension::Current,
+                assumed: false,
+            };
+            let load = o
                 .load
-                .and_then(|l| {
-                    let lp = ctx.circuit.part(l);
-                    let r = lp.num("r")? * (1.0 - lp.num("r_tol").unwrap_or(0.0));
-                    let vr = [lp.net_of("+"), lp.net_of("-")]
-                        .into_iter()
-                        .flatten()
-                        .chain(p.pins.iter().map(|x| x.net))
-                        .filter_map(|n| ctx.circuit.net(n).fixed_max())
-                        .fold(0.0f64, |x, y| x.max(y.abs()));
-                    if lp.num("i_stall").is_some() {
-                        Some(format!("given stall current of `{}`", lp.reference))
-                    } else {
-                        Some(format!(
-                            "stall of `{}` ≈ {} / {}",
-                            lp.reference,
-                            v(vr),
-                            ohm(r)
-                        ))
-                    }
-                })
-                .unwrap_or_else(|| "worst-case on-state current".to_string());
-            let mut f = on_part(
-                &META,
-                ctx,
-                o.switch,
-                "current rating too low",
-                format!(
-                    "{} ({why}) exceeds {} of `{}`'s {} rating ({})",
-                    a(o.i_on),
-                    pct(d.current),
-                    p.reference,
-                    a(o.rating),
-                    a(o.limit)
-                ),
-            );
+                .map(|l| format!(" (`{}` stalled, rails at their maximum)", ref_of(ctx, l)))
+                .unwrap_or_else(|| " (rails at their maximum)".to_string());
+            let msg = crate::checks::rating::message_in(p, &over, "carries up to", &load);
+            let mut f = on_part(&META, ctx, o.switch, "current rating too low", msg);
             if let Some(l) = o.load {
                 f = with_part(f, ctx, l, "the load at stall".into());
             }
             f.help(format!(
-                "use a switch rated at least {} continuous, or limit the stall current",
-                a(o.i_on / d.current)
+                "use a switch rated at least {} continuous ({} derating), or limit the stall current",
+                a(o.i_on / d.current),
+                pct(d.current)
             ))
         })
         .collect()

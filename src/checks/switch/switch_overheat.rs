@@ -96,8 +96,7 @@ pub fn detect(ctx: &Ctx) -> Vec<Overheat> {
                 .get(i, "tj")
                 .and_then(|x| x.note.as_deref())
                 .is_some_and(|n| n.contains("runaway"));
-            let f = f_.value(i, "f_pwm").unwrap_or(0.0);
-            let p_aval = f_.value(i, "e_aval").unwrap_or(0.0) * f;
+            let p_aval = f_.value(i, "p_aval").unwrap_or(0.0);
             let p_sw = (f_.value(i, "p_sw").unwrap_or(0.0) - p_aval).max(0.0);
             let linear = ctx
                 .analysis
