@@ -4,7 +4,7 @@
 
 use crate::finding::{Finding, Severity};
 use crate::settings::{Level, Settings};
-use crate::source::SourceFile;
+use crate::source::{SourceFile, Span};
 use crate::units;
 use crate::yaml;
 use serde_yaml::Value;
@@ -22,11 +22,16 @@ pub struct Config {
     pub settings: Settings,
 }
 
-/// The nearest `armature.yaml` at or above a folder.
-pub fn discover(start: &Path) -> Option<PathBuf> {
+/// The nearest `armature.yaml` at or above a folder, no higher than the
+/// project root (a configuration above the repository, say in a shared
+/// temporary folder, is never picked up).
+pub fn discover(start: &Path, root: Option<&crate::trust::Root>) -> Option<PathBuf> {
     let abs = std::fs::canonicalize(start).unwrap_or_else(|_| start.to_path_buf());
     let mut dir = Some(abs.as_path());
     while let Some(d) = dir {
+        if root.is_some_and(|r| !d.starts_with(&r.dir)) {
+            return None;
+        }
         let c = d.join(FILE_NAME);
         if c.is_file() {
             return Some(c);
@@ -46,13 +51,16 @@ const KEYS: &[&str] = &[
 ];
 const DERATING_KEYS: &[&str] = &["voltage", "current", "power", "gate_voltage", "tj_margin"];
 
-pub fn load(path: &Path) -> Result<Config, Vec<Finding>> {
+pub fn load(path: &Path, root: Option<&crate::trust::Root>) -> Result<Config, Vec<Finding>> {
     let shown = crate::shown_path(path);
     let file = crate::model::library::read_text(path, &shown).map_err(|f| vec![f])?;
-    parse(&file)
+    parse(&file, root)
 }
 
-pub fn parse(file: &Arc<SourceFile>) -> Result<Config, Vec<Finding>> {
+pub fn parse(
+    file: &Arc<SourceFile>,
+    trust: Option<&crate::trust::Root>,
+) -> Result<Config, Vec<Finding>> {
     let doc = yaml::parse(file, CODE).map_err(|e| vec![e])?;
     let base = file
         .path
@@ -71,28 +79,68 @@ pub fn parse(file: &Arc<SourceFile>) -> Result<Config, Vec<Finding>> {
         Value::Mapping(m) => m.clone(),
         Value::Null => return Ok(cfg),
         other => {
-            return Err(vec![e(
-                doc.key_span(""),
+            return Err(vec![Finding::input(
+                CODE,
+                &yaml::unquoted(file),
+                Span::new(0, 0),
                 format!(
-                    "a configuration is a mapping, found {}",
+                    "`{}` is not a configuration (a mapping): found {}",
+                    file.name,
                     yaml::describe(other)
                 ),
             )]);
         }
     };
+    // a mapping with none of the keys is some other file: not quoted
+    if !root
+        .keys()
+        .any(|k| yaml::scalar_text(k).is_some_and(|k| KEYS.contains(&k.as_str())))
+    {
+        return Err(vec![Finding::input(
+            CODE,
+            &yaml::unquoted(file),
+            Span::new(0, 0),
+            format!(
+                "`{}` is not an armature configuration: none of its keys is one",
+                file.name
+            ),
+        )]);
+    }
     let paths = |key: &str, v: &Value, errors: &mut Vec<Finding>| -> Vec<PathBuf> {
         match v {
             Value::Sequence(s) => s
                 .iter()
-                .filter_map(|x| match yaml::scalar_text(x) {
-                    Some(t) => Some(base.join(t)),
+                .enumerate()
+                .filter_map(|(i, x)| match yaml::scalar_text(x) {
+                    Some(t) => {
+                        let p = base.join(&t);
+                        match trust.map(|r| r.check(&p)) {
+                            Some(Err(why)) => {
+                                errors.push(
+                                    e(doc.value_span(&yaml::child(key, &i.to_string())), format!("`{t}` is not read: {why}"))
+                                        .help("keep the project's files inside it, or pass `--allow-outside-root` to trust this one"),
+                                );
+                                None
+                            }
+                            _ => Some(p),
+                        }
+                    }
                     None => {
                         errors.push(e(doc.value_span(key), format!("`{key}` lists file paths")));
                         None
                     }
                 })
                 .collect(),
-            Value::String(s) => vec![base.join(s)],
+            Value::String(s) => {
+                let p = base.join(s);
+                match trust.map(|r| r.check(&p)) {
+                    Some(Err(why)) => {
+                        errors.push(e(doc.value_span(key), format!("`{s}` is not read: {why}")));
+                        Vec::new()
+                    }
+                    _ => vec![p],
+                }
+            }
             _ => {
                 errors.push(e(
                     doc.value_span(key),

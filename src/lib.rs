@@ -23,6 +23,7 @@ pub mod suggest;
 pub mod suppress;
 pub mod syntax;
 pub mod team;
+pub mod trust;
 pub mod units;
 pub mod yaml;
 
@@ -43,6 +44,11 @@ pub struct Options {
     pub settings: Settings,
     /// Team rules from rule files.
     pub team: Vec<Arc<team::TeamRule>>,
+    /// The project root that the netlist's `library` paths must stay in
+    /// (`None`: no limit, for embedding and tests on strings).
+    pub root: Option<trust::Root>,
+    /// The configuration file in force (as shown), if any.
+    pub config: Option<String>,
 }
 
 /// The outcome of checking one file.
@@ -52,6 +58,8 @@ pub struct FileResult {
     pub suppressed: usize,
     /// Derating in force for the file.
     pub settings: Settings,
+    /// The configuration file in force for it, if any.
+    pub config: Option<String>,
 }
 
 impl FileResult {
@@ -86,6 +94,14 @@ fn load_libraries(
     for (text, span) in model::library_lines(&header.statements) {
         let path = base.join(&text);
         let shown = shown_path(&path);
+        if let Some(Err(why)) = opts.root.as_ref().map(|r| r.check(&path)) {
+            errors.push(
+                Finding::input("library-error", file, span, format!("library `{text}` is not read: {why}"))
+                    .label("outside the project")
+                    .help("keep parts libraries inside the project, or pass `--allow-outside-root` for a netlist you trust"),
+            );
+            continue;
+        }
         match cache.load(&path, &shown) {
             Ok(l) => libs.push(l),
             Err(errs) => {
@@ -196,6 +212,7 @@ pub fn check_source(file: Arc<SourceFile>, opts: &Options, cache: &LibraryCache)
                 findings,
                 suppressed: 0,
                 settings: opts.settings.clone(),
+                config: opts.config.clone(),
             }
         }
         Ok(mut b) => {
@@ -220,6 +237,7 @@ pub fn check_source(file: Arc<SourceFile>, opts: &Options, cache: &LibraryCache)
                 findings,
                 suppressed,
                 settings: b.settings,
+                config: opts.config.clone(),
             }
         }
     }
@@ -241,6 +259,7 @@ pub fn check_path(path: &Path, opts: &Options, cache: &LibraryCache) -> FileResu
             findings: vec![f],
             suppressed: 0,
             settings: opts.settings.clone(),
+            config: opts.config.clone(),
         },
     }
 }
@@ -264,7 +283,7 @@ pub fn read_netlist(path: &Path, shown: &str) -> Result<Arc<SourceFile>, Finding
             ),
         ));
     }
-    model::library::read_text(path, shown)
+    model::library::read_text_limited(path, shown, MAX_FILE_BYTES)
 }
 
 /// A path as shown to users: relative to the current folder when inside it.

@@ -57,8 +57,61 @@ pub fn child(path: &str, key: &str) -> String {
     }
 }
 
+/// The file without its text: an error about a file that may not be what
+/// it claims (a path in a netlist can name anything in the project) never
+/// quotes its lines.
+pub fn unquoted(file: &Arc<SourceFile>) -> Arc<SourceFile> {
+    SourceFile::new(file.name.clone(), &file.path, String::new())
+}
+
+/// The first YAML anchor (`&name`) or alias (`*name`) outside quotes and
+/// comments: (offset, length). Libraries, configurations and rule files
+/// have no use for them, and an alias can expand a small file into a huge
+/// document, so they are refused before the file is parsed.
+pub fn first_anchor(text: &str) -> Option<(usize, usize)> {
+    let mut off = 0;
+    for line in text.split_inclusive('\n') {
+        let b = line.as_bytes();
+        let (mut sq, mut dq) = (false, false);
+        let mut prev = b' ';
+        for (i, &c) in b.iter().enumerate() {
+            match c {
+                b'\'' if !dq => sq = !sq,
+                b'"' if !sq => dq = !dq,
+                b'#' if !sq && !dq && (prev == b' ' || prev == b'\t' || i == 0) => break,
+                b'&' | b'*' if !sq && !dq => {
+                    let start =
+                        matches!(prev, b' ' | b'\t' | b'[' | b'{' | b',' | b':' | b'-') || i == 0;
+                    let next = b.get(i + 1).copied().unwrap_or(b' ');
+                    if start && (next.is_ascii_alphanumeric() || next == b'_') {
+                        let len = b[i + 1..]
+                            .iter()
+                            .take_while(|c| c.is_ascii_alphanumeric() || **c == b'_' || **c == b'-')
+                            .count();
+                        return Some((off + i, len + 1));
+                    }
+                }
+                _ => {}
+            }
+            prev = c;
+        }
+        off += line.len();
+    }
+    None
+}
+
 /// Parse a YAML file. A syntax error is a located input finding.
 pub fn parse(file: &Arc<SourceFile>, code: &str) -> Result<YamlDoc, Finding> {
+    if let Some((at, len)) = first_anchor(&file.text) {
+        return Err(Finding::input(
+            code,
+            file,
+            Span::new(at, at + len),
+            "YAML anchors and aliases are not accepted here".to_string(),
+        )
+        .label("anchor or alias")
+        .help("write the values out: a parts library, a configuration or a rule file has no use for them"));
+    }
     if file.text.len() > MAX_YAML_BYTES {
         return Err(Finding::input(
             code,
@@ -96,9 +149,18 @@ pub fn parse(file: &Arc<SourceFile>, code: &str) -> Result<YamlDoc, Finding> {
                 Some(i) => msg[..i].to_string(),
                 None => msg,
             };
-            return Err(
-                Finding::input(code, file, span, format!("invalid YAML: {msg}")).label("here"),
-            );
+            // not YAML at all: say where, without quoting what it holds
+            let _ = span;
+            return Err(Finding::input(
+                code,
+                &unquoted(file),
+                Span::new(0, 0),
+                format!(
+                    "`{}` is not valid YAML ({msg}, at line {})",
+                    file.name,
+                    e.location().map_or(0, |l| l.line())
+                ),
+            ));
         }
     };
     let positions = locate(&file.text);

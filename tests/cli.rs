@@ -71,11 +71,14 @@ fn input_errors_exit_2() {
     let libdir = dir.join("libdir.drive");
     let _ = std::fs::create_dir_all(dir.join("adir.yaml"));
     let _ = std::fs::write(&libdir, "library \"adir.yaml\"\n");
+    let root = dir.to_str().unwrap_or("");
     let (code, out, _) = stdout(&[
         "check",
         libdir.to_str().unwrap_or(""),
         "--format",
         "compact",
+        "--root",
+        root,
     ]);
     assert_eq!(code, 2);
     assert!(out.contains("is a folder"), "{out}");

@@ -231,11 +231,12 @@ fn a_large_board_gives_the_same_output_on_one_and_two_threads() {
     let board = dir.join("board.drive");
     let _ = std::fs::write(&board, generator::netlist(1200, "gen-parts.yaml"));
     let path = board.to_string_lossy().into_owned();
+    let root = dir.to_string_lossy().into_owned();
     let mut outs = Vec::new();
     for threads in ["1", "2", "2"] {
         for args in [
-            vec!["check", path.as_str(), "--format", "json"],
-            vec!["facts", path.as_str(), "--format", "json"],
+            vec!["check", path.as_str(), "--format", "json", "--root", root.as_str()],
+            vec!["facts", path.as_str(), "--format", "json", "--root", root.as_str()],
         ] {
             let (_, out) = run_env(&args, &[("RAYON_NUM_THREADS", threads)], None);
             outs.push(out);

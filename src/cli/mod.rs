@@ -90,6 +90,29 @@ pub struct CommonArgs {
     /// Use this configuration file instead of discovering armature.yaml
     #[arg(long, value_name = "FILE")]
     pub config: Option<PathBuf>,
+    /// Use no configuration file at all (defaults)
+    #[arg(long = "no-config", conflicts_with = "config")]
+    pub no_config: bool,
+    /// The project root: every path a netlist, configuration or rule file
+    /// names must stay inside it (default: the nearest folder above with
+    /// .git or .hg, else the current folder)
+    #[arg(long, value_name = "DIR")]
+    pub root: Option<PathBuf>,
+    /// Read paths outside the project root too (for trusted input only)
+    #[arg(long = "allow-outside-root")]
+    pub allow_outside_root: bool,
+}
+
+impl CommonArgs {
+    /// The project root in force.
+    pub fn root(&self) -> crate::trust::Root {
+        let mut r = match &self.root {
+            Some(d) => crate::trust::Root::at(d),
+            None => crate::trust::Root::find(&std::env::current_dir().unwrap_or_default()),
+        };
+        r.allow_outside = self.allow_outside_root;
+        r
+    }
 }
 
 #[derive(Args, Debug)]
@@ -217,10 +240,15 @@ fn load_rule_file(path: &Path) -> Result<Vec<std::sync::Arc<crate::team::TeamRul
 
 fn profile(config: Option<&Path>, common: &CommonArgs) -> Profile {
     let mut errors = Vec::new();
-    let mut opts = Options::default();
+    let root = common.root();
+    let mut opts = Options {
+        root: Some(root.clone()),
+        config: config.map(crate::shown_path),
+        ..Options::default()
+    };
     let mut rule_files: Vec<PathBuf> = Vec::new();
     if let Some(path) = config {
-        match crate::config::load(path) {
+        match crate::config::load(path, Some(&root)) {
             Ok(cfg) => {
                 opts.settings = cfg.settings.clone();
                 opts.libraries = cfg
@@ -233,13 +261,35 @@ fn profile(config: Option<&Path>, common: &CommonArgs) -> Profile {
             Err(mut e) => errors.append(&mut e),
         }
     }
-    opts.libraries.extend(
-        common
-            .library
-            .iter()
-            .map(|p| (p.clone(), crate::shown_path(p))),
-    );
-    rule_files.extend(common.rules.iter().cloned());
+    // paths from the command line are held to the root too
+    let outside = |p: &Path, what: &str, errors: &mut Vec<Finding>| -> bool {
+        match root.check(p) {
+            Ok(()) => false,
+            Err(why) => {
+                errors.push(
+                    error_result(
+                        p,
+                        &format!(
+                            "the {what} is not read: {why}; pass `--allow-outside-root` to trust it"
+                        ),
+                    )
+                    .findings
+                    .remove(0),
+                );
+                true
+            }
+        }
+    };
+    for p in &common.library {
+        if !outside(p, "library", &mut errors) {
+            opts.libraries.push((p.clone(), crate::shown_path(p)));
+        }
+    }
+    for p in &common.rules {
+        if !outside(p, "rule file", &mut errors) {
+            rule_files.push(p.clone());
+        }
+    }
     for rf in rule_files {
         match load_rule_file(&rf) {
             Ok(mut r) => opts.team.append(&mut r),
@@ -250,6 +300,9 @@ fn profile(config: Option<&Path>, common: &CommonArgs) -> Profile {
 }
 
 fn config_for(file: &Path, common: &CommonArgs) -> Option<PathBuf> {
+    if common.no_config {
+        return None;
+    }
     if let Some(c) = &common.config {
         return Some(c.clone());
     }
@@ -257,7 +310,7 @@ fn config_for(file: &Path, common: &CommonArgs) -> Option<PathBuf> {
         .parent()
         .filter(|p| !p.as_os_str().is_empty())
         .unwrap_or(Path::new("."));
-    crate::config::discover(dir)
+    crate::config::discover(dir, Some(&common.root()))
 }
 
 fn check(a: CheckArgs) -> i32 {
@@ -313,6 +366,7 @@ fn check(a: CheckArgs) -> i32 {
                 findings: p.errors.clone(),
                 suppressed: 0,
                 settings: p.opts.settings.clone(),
+                config: p.opts.config.clone(),
             });
         }
     }
@@ -355,6 +409,26 @@ fn check(a: CheckArgs) -> i32 {
     crate::exit_code(&results, fail_on)
 }
 
+/// The configuration files in force, each once.
+fn configs(results: &[FileResult]) -> Vec<String> {
+    let mut v: Vec<String> = results.iter().filter_map(|r| r.config.clone()).collect();
+    v.sort();
+    v.dedup();
+    v
+}
+
+fn configs_line(results: &[FileResult]) -> String {
+    let v = configs(results);
+    if v.is_empty() {
+        "none (defaults)".to_string()
+    } else {
+        v.iter()
+            .map(|c| crate::trust::escape(c).into_owned())
+            .collect::<Vec<_>>()
+            .join(", ")
+    }
+}
+
 fn error_result(p: &Path, msg: &str) -> FileResult {
     let shown = crate::shown_path(p);
     let file = crate::source::SourceFile::new(shown.clone(), p, String::new());
@@ -368,6 +442,7 @@ fn error_result(p: &Path, msg: &str) -> FileResult {
         file,
         suppressed: 0,
         settings: crate::settings::Settings::default(),
+        config: None,
     }
 }
 
@@ -412,6 +487,7 @@ pub fn emit(
                 line.push_str(&format!(", {suppressed} suppressed"));
             }
             writeln!(out, "{line}")?;
+            writeln!(out, "configuration: {}", configs_line(results))?;
         }
         Format::Compact => {
             for f in &all {
@@ -424,7 +500,24 @@ pub fn emit(
                 .first()
                 .map(|r| r.settings.derating.clone())
                 .unwrap_or_default();
-            let doc = report::json::document(&owned, results.len(), suppressed, &derating);
+            let mut doc = report::json::document(&owned, results.len(), suppressed, &derating);
+            if let Some(m) = doc.as_object_mut() {
+                m.insert("config".into(), serde_json::json!(configs(results)));
+                // every file's settings in force (the top-level derating is
+                // the first file's)
+                let files: Vec<serde_json::Value> = results
+                    .iter()
+                    .map(|r| {
+                        serde_json::json!({
+                            "file": r.file.name,
+                            "config": r.config,
+                            "derating": report::json::derating(&r.settings.derating),
+                            "ambient": {"value": r.settings.ambient, "unit": "degC"},
+                        })
+                    })
+                    .collect();
+                m.insert("settings".into(), serde_json::Value::Array(files));
+            }
             writeln!(
                 out,
                 "{}",
@@ -433,7 +526,13 @@ pub fn emit(
         }
         Format::Sarif => {
             let owned: Vec<Finding> = all.iter().map(|f| (*f).clone()).collect();
-            let doc = report::sarif::document(&owned, team);
+            let mut doc = report::sarif::document(&owned, team);
+            if let Some(run) = doc.pointer_mut("/runs/0").and_then(|r| r.as_object_mut()) {
+                run.insert(
+                    "properties".into(),
+                    serde_json::json!({"configuration": configs(results)}),
+                );
+            }
             writeln!(
                 out,
                 "{}",

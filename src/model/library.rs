@@ -36,22 +36,27 @@ const CODE: &str = "library-error";
 
 /// Read a file as UTF-8 text, as an input finding if it cannot be read.
 pub fn read_text(path: &Path, shown: &str) -> Result<Arc<SourceFile>, Finding> {
+    read_text_limited(path, shown, crate::yaml::MAX_YAML_BYTES as u64)
+}
+
+/// Read a text file of at most `limit` bytes: only a regular file, and no
+/// more than `limit + 1` bytes of it (a FIFO or `/dev/zero` cannot hang or
+/// flood the reader).
+pub fn read_text_limited(path: &Path, shown: &str, limit: u64) -> Result<Arc<SourceFile>, Finding> {
     let empty = || SourceFile::new(shown, path, String::new());
+    let err = |msg: String| Finding::input("file-error", &empty(), Span::new(0, 0), msg);
     if path.is_dir() {
-        return Err(Finding::input(
-            "file-error",
-            &empty(),
-            Span::new(0, 0),
-            format!("`{shown}` is a folder, not a file"),
-        ));
+        return Err(err(format!("`{shown}` is a folder, not a file")));
     }
-    let bytes = std::fs::read(path).map_err(|e| {
-        Finding::input(
-            "file-error",
-            &empty(),
-            Span::new(0, 0),
-            format!("cannot read `{shown}`: {}", io_reason(&e)),
-        )
+    let bytes = crate::trust::read_bounded(path, limit).map_err(|e| match e {
+        crate::trust::ReadError::Io(e) => err(format!("cannot read `{shown}`: {}", io_reason(&e))),
+        crate::trust::ReadError::NotAFile => err(format!(
+            "`{shown}` is not a regular file (a device, a pipe or a socket): it is not read"
+        )),
+        crate::trust::ReadError::TooLarge(n) => err(format!(
+            "`{shown}` is {} bytes or more; the limit is {limit} bytes",
+            n
+        )),
     })?;
     text_from_bytes(bytes, path, shown)
 }
@@ -66,13 +71,34 @@ pub fn io_reason(e: &std::io::Error) -> String {
 
 /// Bytes → source file; invalid UTF-8 is a located error. A leading BOM
 /// is kept as whitespace so that offsets match the file.
+/// Old Mac line endings: a CR not followed by LF ends a line too. (CRLF is
+/// read as it is.) The replacement keeps every offset.
+fn lone_cr_to_lf(text: String) -> String {
+    if !text.contains('\r') {
+        return text;
+    }
+    let b = text.as_bytes();
+    let out: Vec<u8> = b
+        .iter()
+        .enumerate()
+        .map(|(i, &c)| {
+            if c == b'\r' && b.get(i + 1) != Some(&b'\n') {
+                b'\n'
+            } else {
+                c
+            }
+        })
+        .collect();
+    String::from_utf8(out).unwrap_or(text)
+}
+
 pub fn text_from_bytes(
     bytes: Vec<u8>,
     path: &Path,
     shown: &str,
 ) -> Result<Arc<SourceFile>, Finding> {
     match String::from_utf8(bytes) {
-        Ok(text) => Ok(SourceFile::new(shown, path, text)),
+        Ok(text) => Ok(SourceFile::new(shown, path, lone_cr_to_lf(text))),
         Err(e) => {
             let valid = e.utf8_error().valid_up_to();
             let bytes = e.into_bytes();
@@ -135,15 +161,34 @@ pub fn load_library(file: &Arc<SourceFile>) -> Result<Library, Vec<Finding>> {
         other => {
             return Err(vec![Finding::input(
                 CODE,
-                file,
+                &yaml::unquoted(file),
                 Span::new(0, 0),
                 format!(
-                    "a parts library is a mapping with a `parts` key, found {}",
+                    "`{}` is not a parts library (a mapping with a `parts` key): found {}",
+                    file.name,
                     yaml::describe(other)
                 ),
             )]);
         }
     };
+    // a mapping without `parts` is some other file: it is not quoted
+    if !root
+        .keys()
+        .any(|k| yaml::scalar_text(k).as_deref() == Some("parts"))
+    {
+        return Err(vec![
+            Finding::input(
+                CODE,
+                &yaml::unquoted(file),
+                Span::new(0, 0),
+                format!(
+                    "`{}` is not a parts library: it has no `parts` key",
+                    file.name
+                ),
+            )
+            .help("a parts library starts with `parts:` and names each part under it"),
+        ]);
+    }
     for (k, v) in root {
         let key = yaml::scalar_text(k).unwrap_or_default();
         if key != "parts" {

@@ -202,11 +202,25 @@ pub fn load(file: &Arc<SourceFile>) -> Result<Vec<TeamRule>, Vec<Finding>> {
     let mut out = Vec::new();
     let e = |span: Span, msg: String| Finding::input(CODE, file, span, msg);
     let Value::Mapping(root) = &doc.root else {
-        return Err(vec![e(
+        return Err(vec![Finding::input(
+            CODE,
+            &yaml::unquoted(file),
             Span::new(0, 0),
-            "a rule file is a mapping with a `rules` list".into(),
+            format!(
+                "`{}` is not a rule file (a mapping with a `rules` list)",
+                file.name
+            ),
         )]);
     };
+    // some other file: not quoted
+    if !root.contains_key("rules") {
+        return Err(vec![Finding::input(
+            CODE,
+            &yaml::unquoted(file),
+            Span::new(0, 0),
+            format!("`{}` is not a rule file: it has no `rules` list", file.name),
+        )]);
+    }
     for (k, _) in root {
         let k = yaml::scalar_text(k).unwrap_or_default();
         if k != "rules" {

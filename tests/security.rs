@@ -1,0 +1,208 @@
+//! Untrusted input: a netlist from a pull request must not make the tool
+//! read outside the project, leak what it reads, hang, or pass silently.
+//! Each case builds its hostile input in a scratch project.
+
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+fn armature() -> Command {
+    Command::new(env!("CARGO_BIN_EXE_armature"))
+}
+
+fn run(dir: &Path, args: &[&str]) -> (i32, String, String) {
+    let out = match armature().args(args).current_dir(dir).output() {
+        Ok(o) => o,
+        Err(e) => panic!("{e}"),
+    };
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+/// A scratch project (with `.git`) inside a scratch parent.
+fn project(tag: &str) -> (PathBuf, PathBuf) {
+    let parent = std::env::temp_dir().join(format!("armature-sec-{}-{tag}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&parent);
+    let proj = parent.join("proj");
+    let _ = std::fs::create_dir_all(proj.join(".git"));
+    (parent, proj)
+}
+
+fn write(p: &Path, text: &str) {
+    if let Some(d) = p.parent() {
+        let _ = std::fs::create_dir_all(d);
+    }
+    if let Err(e) = std::fs::write(p, text) {
+        panic!("{e}");
+    }
+}
+
+const SECRET: &str = "API_TOKEN: s3cr3t-value-123\n";
+
+#[test]
+fn libraries_outside_the_project_are_not_read_or_quoted() {
+    let (parent, proj) = project("outside");
+    write(&parent.join("secret.yaml"), SECRET);
+    for lib in [
+        parent.join("secret.yaml").to_string_lossy().into_owned(),
+        "../secret.yaml".to_string(),
+        "link.yaml".to_string(),
+    ] {
+        #[cfg(unix)]
+        let _ = std::os::unix::fs::symlink(parent.join("secret.yaml"), proj.join("link.yaml"));
+        write(
+            &proj.join("a.drive"),
+            &format!("library \"{lib}\"\nrail V 5V\nground GND\n"),
+        );
+        let (code, out, err) = run(&proj, &["check", "a.drive", "--format", "compact"]);
+        assert_eq!(code, 2, "{lib}: {out}");
+        assert!(out.contains("outside the project root"), "{lib}: {out}");
+        assert!(
+            !out.contains("s3cr3t") && !err.contains("s3cr3t"),
+            "{lib} leaked: {out}"
+        );
+    }
+    // the operator may trust it explicitly
+    write(
+        &proj.join("a.drive"),
+        "library \"../secret.yaml\"\nrail V 5V\nground GND\n",
+    );
+    let (_, out, _) = run(
+        &proj,
+        &[
+            "check",
+            "a.drive",
+            "--allow-outside-root",
+            "--format",
+            "compact",
+        ],
+    );
+    assert!(!out.contains("outside the project root"), "{out}");
+    // and even then a file that is not a library is not quoted
+    assert!(!out.contains("s3cr3t"), "{out}");
+    assert!(out.contains("is not a parts library"), "{out}");
+}
+
+#[test]
+fn a_file_in_the_project_that_is_not_a_library_is_not_quoted() {
+    let (_, proj) = project("notlib");
+    write(&proj.join("env.txt"), "SECRET=abc123\nOTHER=xyz\n");
+    write(&proj.join("creds.yaml"), SECRET);
+    for lib in ["env.txt", "creds.yaml"] {
+        write(
+            &proj.join("a.drive"),
+            &format!("library \"{lib}\"\nrail V 5V\nground GND\n"),
+        );
+        let (code, out, _) = run(&proj, &["check", "a.drive"]);
+        assert_eq!(code, 2, "{out}");
+        assert!(
+            !out.contains("abc123") && !out.contains("s3cr3t"),
+            "{lib}: {out}"
+        );
+    }
+}
+
+#[test]
+fn configuration_stops_at_the_project_root_and_is_named() {
+    let (parent, proj) = project("config");
+    // above the repository: must not turn rules off
+    write(
+        &parent.join("armature.yaml"),
+        "severity:\n  bulk-cap-missing: off\n",
+    );
+    write(
+        &proj.join("a.drive"),
+        "rail V 12V\nground GND\nsolenoid L1 (+: V, -: SW) r=24ohm l=10mH\nrail V5 5V\nmcu U1 (PA0: C, VDD: V5, VSS: GND) io_v=5V\nresistor R1 (C, G) 100\nresistor R2 (G, GND) 10k\nnmos Q1 (d: SW, g: G, s: GND) vds_max=60V id_max=3A rds_on=0.1ohm rds_on_vgs=4.5V vgs_th=2V\ndiode D1 (a: SW, k: V) vf=0.7V\n",
+    );
+    let (_, out, _) = run(&proj, &["check", "a.drive", "--format", "compact"]);
+    assert!(
+        out.contains("bulk-cap-missing"),
+        "a config above the root was used: {out}"
+    );
+    let (_, out, _) = run(&proj, &["check", "a.drive"]);
+    assert!(out.contains("configuration: none (defaults)"), "{out}");
+    // one inside is used, and named in every format
+    write(
+        &proj.join("armature.yaml"),
+        "severity:\n  bulk-cap-missing: off\n",
+    );
+    let (_, out, _) = run(&proj, &["check", "a.drive"]);
+    assert!(out.contains("configuration: armature.yaml"), "{out}");
+    assert!(!out.contains("bulk-cap-missing"), "{out}");
+    let (_, out, _) = run(&proj, &["check", "a.drive", "--format", "json"]);
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap_or_default();
+    assert_eq!(v["config"][0], "armature.yaml", "{out}");
+    let (_, out, _) = run(&proj, &["check", "a.drive", "--format", "sarif"]);
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap_or_default();
+    assert_eq!(
+        v["runs"][0]["properties"]["configuration"][0],
+        "armature.yaml"
+    );
+    // --no-config: the defaults
+    let (_, out, _) = run(
+        &proj,
+        &["check", "a.drive", "--no-config", "--format", "compact"],
+    );
+    assert!(out.contains("bulk-cap-missing"), "{out}");
+    // a config naming a rule file outside the root: a located error
+    write(&parent.join("team.yaml"), "rules: []\n");
+    write(&proj.join("armature.yaml"), "rules: [../team.yaml]\n");
+    let (code, out, _) = run(&proj, &["check", "a.drive", "--format", "compact"]);
+    assert_eq!(code, 2, "{out}");
+    assert!(
+        out.contains("armature.yaml:1:") && out.contains("outside the project root"),
+        "{out}"
+    );
+}
+
+#[test]
+fn devices_pipes_and_aliases_are_refused() {
+    let (_, proj) = project("devices");
+    let (code, out, _) = run(&proj, &["check", "/dev/zero"]);
+    assert_eq!(code, 2);
+    assert!(out.contains("not a regular file"), "{out}");
+    #[cfg(unix)]
+    {
+        let fifo = proj.join("pipe.drive");
+        let ok = Command::new("mkfifo")
+            .arg(&fifo)
+            .status()
+            .is_ok_and(|s| s.success());
+        if ok {
+            let (code, out, _) = run(&proj, &["check", "pipe.drive"]);
+            assert_eq!(code, 2);
+            assert!(out.contains("not a regular file"), "{out}");
+        }
+    }
+    // a billion laughs in 1 KB: refused before it is expanded
+    let mut y = String::from("a: &a [x, x, x, x, x, x, x, x]\n");
+    for i in 0..8 {
+        y.push_str(&format!("b{i}: &b{i} [*a, *a, *a, *a, *a, *a, *a, *a]\n"));
+    }
+    write(&proj.join("bomb.yaml"), &format!("parts: {{}}\n{y}"));
+    write(
+        &proj.join("a.drive"),
+        "library \"bomb.yaml\"\nrail V 5V\nground GND\n",
+    );
+    let (code, out, _) = run(&proj, &["check", "a.drive", "--format", "compact"]);
+    assert_eq!(code, 2, "{out}");
+    assert!(
+        out.contains("anchors and aliases are not accepted"),
+        "{out}"
+    );
+}
+
+#[test]
+fn old_mac_line_endings_read_as_lines() {
+    let (_, proj) = project("cr");
+    write(
+        &proj.join("a.drive"),
+        "rail V 12V\rground GND\rresistor R1 (V, X) 10\r",
+    );
+    let (code, out, _) = run(&proj, &["check", "a.drive", "--format", "compact"]);
+    // three statements: R1's net X touches one pin
+    assert_eq!(code, 0, "{out}");
+    assert!(out.contains("net-touches-one-pin"), "{out}");
+}
