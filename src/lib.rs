@@ -186,6 +186,23 @@ pub fn build(
     if let Some((t, _)) = circuit.ambient {
         settings.ambient = t;
     }
+    if circuit.nets.is_empty()
+        && circuit.parts.is_empty()
+        && !errors.iter().any(|e| e.class == Class::Input)
+    {
+        errors.push(
+            Finding::input(
+                "file-error",
+                file,
+                Span::new(0, 0),
+                format!(
+                    "`{}` holds no statements: there is nothing to check",
+                    file.name
+                ),
+            )
+            .help("a netlist names at least its rails, its ground and its parts"),
+        );
+    }
     if errors.iter().any(|e| e.class == Class::Input) {
         return Err(errors);
     }
@@ -295,7 +312,18 @@ pub fn shown_path(path: &Path) -> String {
             match c {
                 std::path::Component::CurDir => {}
                 std::path::Component::ParentDir => {
-                    if !out.pop() {
+                    // only a named folder is undone by `..`: a leading
+                    // `..` (or a run of them) stays
+                    let named = matches!(
+                        out.components().next_back(),
+                        Some(std::path::Component::Normal(_))
+                    );
+                    if named {
+                        out.pop();
+                    } else if !matches!(
+                        out.components().next_back(),
+                        Some(std::path::Component::RootDir)
+                    ) {
                         out.push("..");
                     }
                 }
@@ -305,12 +333,15 @@ pub fn shown_path(path: &Path) -> String {
         out
     };
     let p = clean(path);
-    if let Some(cwd) = cwd
-        && let Ok(rel) = p.strip_prefix(&cwd)
-    {
-        return rel.to_string_lossy().replace('\\', "/");
+    let shown = match cwd.as_ref().and_then(|cwd| p.strip_prefix(cwd).ok()) {
+        Some(rel) => rel.to_string_lossy().replace('\\', "/"),
+        None => p.to_string_lossy().replace('\\', "/"),
+    };
+    if shown.is_empty() {
+        ".".to_string()
+    } else {
+        shown
     }
-    p.to_string_lossy().replace('\\', "/")
 }
 
 /// Exit code for a set of results: 2 input errors, 1 findings at or above

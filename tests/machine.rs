@@ -235,8 +235,22 @@ fn a_large_board_gives_the_same_output_on_one_and_two_threads() {
     let mut outs = Vec::new();
     for threads in ["1", "2", "2"] {
         for args in [
-            vec!["check", path.as_str(), "--format", "json", "--root", root.as_str()],
-            vec!["facts", path.as_str(), "--format", "json", "--root", root.as_str()],
+            vec![
+                "check",
+                path.as_str(),
+                "--format",
+                "json",
+                "--root",
+                root.as_str(),
+            ],
+            vec![
+                "facts",
+                path.as_str(),
+                "--format",
+                "json",
+                "--root",
+                root.as_str(),
+            ],
         ] {
             let (_, out) = run_env(&args, &[("RAYON_NUM_THREADS", threads)], None);
             outs.push(out);

@@ -206,3 +206,42 @@ fn old_mac_line_endings_read_as_lines() {
     assert_eq!(code, 0, "{out}");
     assert!(out.contains("net-touches-one-pin"), "{out}");
 }
+
+#[test]
+fn nothing_checked_is_not_a_pass() {
+    let (_, proj) = project("empty");
+    let _ = std::fs::create_dir_all(proj.join("empty"));
+    let (code, out, _) = run(&proj, &["check", "empty"]);
+    assert_eq!(code, 2, "{out}");
+    assert!(out.contains("no netlist"), "{out}");
+    write(&proj.join("e.drive"), "# only a comment\n\n");
+    let (code, out, _) = run(&proj, &["check", "e.drive"]);
+    assert_eq!(code, 2, "{out}");
+    assert!(out.contains("holds no statements"), "{out}");
+    // extensions in any case
+    write(
+        &proj.join("up/BOARD.DRIVE"),
+        "rail V 5V\nground GND\nresistor R1 (V, GND) 1k p_max=1W\n",
+    );
+    let (code, out, _) = run(&proj, &["check", "up", "--format", "compact"]);
+    assert_eq!(code, 0, "{out}");
+    // a folder that contains itself through a symlink: the walk ends
+    #[cfg(unix)]
+    {
+        let _ = std::os::unix::fs::symlink(proj.join("up"), proj.join("up/loop"));
+        let (code, _, _) = run(&proj, &["check", "up"]);
+        assert_eq!(code, 0);
+    }
+}
+
+#[test]
+fn shown_paths_keep_a_leading_parent() {
+    assert_eq!(
+        armature::shown_path(Path::new("../../a/b.drive")),
+        "../../a/b.drive"
+    );
+    assert_eq!(
+        armature::shown_path(Path::new("x/../../b.drive")),
+        "../b.drive"
+    );
+}

@@ -209,19 +209,52 @@ pub fn run(args: Vec<String>) -> i32 {
     }
 }
 
-/// Every `*.drive` file below a folder, sorted.
+/// Whether a file is a netlist armature reads: `.drive`, any case.
+pub fn is_netlist(p: &Path) -> bool {
+    p.extension()
+        .is_some_and(|e| e.eq_ignore_ascii_case("drive"))
+}
+
+/// Every netlist below a folder, sorted. Symlinked folders are not
+/// followed, and a folder reached twice (bind mounts, hard links) is read
+/// once: the walk ends on any tree.
 fn collect(path: &Path, out: &mut Vec<PathBuf>) -> std::io::Result<()> {
-    let mut entries: Vec<PathBuf> = std::fs::read_dir(path)?
-        .filter_map(|e| e.ok().map(|e| e.path()))
-        .collect();
-    entries.sort();
-    for p in entries {
-        if p.is_dir() {
-            collect(&p, out)?;
-        } else if p.extension().is_some_and(|e| e == "drive") {
-            out.push(p);
+    let mut seen: std::collections::HashSet<(u64, u64)> = std::collections::HashSet::new();
+    let mut stack = vec![path.to_path_buf()];
+    let mut first = true;
+    while let Some(dir) = stack.pop() {
+        #[cfg(unix)]
+        {
+            use std::os::unix::fs::MetadataExt;
+            if let Ok(m) = std::fs::metadata(&dir)
+                && !seen.insert((m.dev(), m.ino()))
+            {
+                continue;
+            }
         }
+        let rd = match std::fs::read_dir(&dir) {
+            Ok(rd) => rd,
+            Err(e) if first => return Err(e),
+            Err(_) => continue,
+        };
+        first = false;
+        let mut entries: Vec<PathBuf> = rd.filter_map(|e| e.ok().map(|e| e.path())).collect();
+        entries.sort();
+        // folders are walked in order: pushed last-first
+        let mut dirs = Vec::new();
+        for p in entries {
+            let Ok(meta) = std::fs::symlink_metadata(&p) else {
+                continue;
+            };
+            if meta.is_dir() {
+                dirs.push(p);
+            } else if is_netlist(&p) {
+                out.push(p);
+            }
+        }
+        stack.extend(dirs.into_iter().rev());
     }
+    out.sort();
     Ok(())
 }
 
@@ -323,8 +356,14 @@ fn check(a: CheckArgs) -> i32 {
     let mut missing: Vec<FileResult> = Vec::new();
     for p in &paths {
         if p.is_dir() {
+            let before = files.len();
             if let Err(e) = collect(p, &mut files) {
                 missing.push(error_result(p, &format!("cannot read folder: {e}")));
+            } else if files.len() == before {
+                missing.push(error_result(
+                    p,
+                    "no netlist (`*.drive`) in this folder or below it: nothing was checked",
+                ));
             }
         } else if p.exists() {
             files.push(p.clone());
@@ -336,13 +375,23 @@ fn check(a: CheckArgs) -> i32 {
     // group the files by the configuration in force for each
     let mut profiles: Vec<(Option<PathBuf>, Profile)> = Vec::new();
     let mut assigned: Vec<(PathBuf, usize)> = Vec::new();
+    // one profile per configuration, and one discovery per folder
+    let mut by_config: std::collections::HashMap<Option<PathBuf>, usize> =
+        std::collections::HashMap::new();
+    let mut by_dir: std::collections::HashMap<PathBuf, Option<PathBuf>> =
+        std::collections::HashMap::new();
     for f in &files {
-        let cfg = config_for(f, &a.common);
-        let idx = match profiles.iter().position(|(c, _)| *c == cfg) {
-            Some(i) => i,
+        let dir = f.parent().map(Path::to_path_buf).unwrap_or_default();
+        let cfg = by_dir
+            .entry(dir)
+            .or_insert_with(|| config_for(f, &a.common))
+            .clone();
+        let idx = match by_config.get(&cfg) {
+            Some(&i) => i,
             None => {
                 let p = profile(cfg.as_deref(), &a.common);
-                profiles.push((cfg, p));
+                profiles.push((cfg.clone(), p));
+                by_config.insert(cfg, profiles.len() - 1);
                 profiles.len() - 1
             }
         };
