@@ -18,9 +18,31 @@ fn main() {
     // check from 700-2,200 to about 400.
     // SAFETY: sets a process-wide allocator option; no memory is touched.
     unsafe { libmimalloc_sys::mi_option_set(MI_OPTION_PURGE_DELAY, -1) };
+    restore_sigpipe();
     let code = armature::cli::run(std::env::args().collect());
     std::process::exit(code);
 }
+
+/// Output piped into `head` or a pager that quits: end quietly, as a
+/// Unix tool does (status 141 in the shell), rather than panic on the
+/// broken pipe. Rust starts programs with SIGPIPE ignored; this puts the
+/// default action back.
+#[cfg(unix)]
+fn restore_sigpipe() {
+    const SIGPIPE: i32 = 13;
+    const SIG_DFL: usize = 0;
+    unsafe extern "C" {
+        fn signal(sig: i32, handler: usize) -> usize;
+    }
+    // SAFETY: `signal` from the C library, called before any thread starts,
+    // with the default disposition; no Rust handler is installed.
+    unsafe {
+        signal(SIGPIPE, SIG_DFL);
+    }
+}
+
+#[cfg(not(unix))]
+fn restore_sigpipe() {}
 
 #[cfg(test)]
 mod tests {

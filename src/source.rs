@@ -5,7 +5,7 @@
 //! rescanning from the start of the text.
 
 use std::path::{Path, PathBuf};
-use std::sync::Arc;
+use std::sync::{Arc, OnceLock};
 
 /// A byte range into a source file. Stored in 32 bits a side (every
 /// input is capped far below 4 GiB; an offset beyond saturates), which
@@ -56,6 +56,32 @@ pub struct SourceFile {
     pub path: PathBuf,
     pub text: String,
     line_starts: Vec<usize>,
+    /// The text with terminal controls escaped, built on first need.
+    terminal: OnceLock<Option<Escaped>>,
+}
+
+/// A file's text with every character a terminal would act on written
+/// as `\u{…}`, and where each escape moved the offsets after it.
+#[derive(Debug)]
+pub struct Escaped {
+    pub file: Arc<SourceFile>,
+    /// (original offset of an escaped character, total growth up to and
+    /// including it), ascending.
+    shifts: Vec<(usize, usize)>,
+}
+
+impl Escaped {
+    /// The escaped file's offset of an original offset.
+    pub fn map(&self, offset: usize) -> usize {
+        let k = self.shifts.partition_point(|&(at, _)| at < offset);
+        match k.checked_sub(1).and_then(|i| self.shifts.get(i)) {
+            Some(&(_, grow)) => offset + grow,
+            None => offset,
+        }
+    }
+    pub fn span(&self, s: Span) -> Span {
+        Span::new(self.map(s.start()), self.map(s.end()))
+    }
 }
 
 impl SourceFile {
@@ -72,7 +98,51 @@ impl SourceFile {
             path: path.into(),
             text,
             line_starts,
+            terminal: OnceLock::new(),
         })
+    }
+
+    /// The file as a terminal may show it: `None` when nothing in it needs
+    /// escaping (the usual case), else the escaped copy and its offset map.
+    /// A CR before LF is a line ending, not a control.
+    pub fn for_terminal(&self) -> Option<&Escaped> {
+        self.terminal
+            .get_or_init(|| {
+                let t = &self.text;
+                let mut chars = t.char_indices().peekable();
+                let mut out: Option<String> = None;
+                let mut shifts = Vec::new();
+                let mut grow = 0usize;
+                let mut last = 0usize;
+                while let Some((i, c)) = chars.next() {
+                    let crlf = c == '\r' && matches!(chars.peek(), Some((_, '\n')));
+                    if crlf || !crate::trust::unsafe_char(c) {
+                        continue;
+                    }
+                    let o = out.get_or_insert_with(|| String::with_capacity(t.len() + 16));
+                    o.push_str(t.get(last..i).unwrap_or(""));
+                    let e = format!("\\u{{{:x}}}", c as u32);
+                    grow += e.len() - c.len_utf8();
+                    o.push_str(&e);
+                    last = i + c.len_utf8();
+                    shifts.push((i, grow));
+                }
+                let name = crate::trust::escape(&self.name);
+                let o = match out {
+                    Some(mut o) => {
+                        o.push_str(t.get(last..).unwrap_or(""));
+                        o
+                    }
+                    None if matches!(name, std::borrow::Cow::Owned(_)) => t.clone(),
+                    None => return None,
+                };
+                let name = name.into_owned();
+                Some(Escaped {
+                    file: SourceFile::new(name, self.path.clone(), o),
+                    shifts,
+                })
+            })
+            .as_ref()
     }
 
     /// A file built from a string, for tests and library callers.

@@ -116,7 +116,7 @@ pub fn read_bounded(path: &Path, limit: u64) -> Result<Vec<u8>, ReadError> {
 /// A character a terminal would act on: C0 and C1 controls (tab and
 /// newline aside), DEL, and the bidirectional overrides and isolates that
 /// can reorder what a reader sees.
-fn unsafe_char(c: char) -> bool {
+pub fn unsafe_char(c: char) -> bool {
     (c.is_control() && c != '\n' && c != '\t')
         || matches!(c, '\u{200e}' | '\u{200f}' | '\u{202a}'..='\u{202e}' | '\u{2066}'..='\u{2069}' | '\u{061c}')
 }

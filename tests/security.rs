@@ -245,3 +245,152 @@ fn shown_paths_keep_a_leading_parent() {
         "../b.drive"
     );
 }
+
+/// Boards that used to pass clean although nothing on them can work.
+#[test]
+fn boards_that_cannot_work_do_not_pass() {
+    let (_, proj) = project("silent");
+    write(
+        &proj.join("parts.yaml"),
+        include_str!("fixtures/parts.yaml"),
+    );
+    let body = "mcu U1 (PA3: PWM, VDD: V5, VSS: GND) part=DEMO-MCU-5V\n\
+                resistor R2 (PWM, GND) 100k\n\
+                nmos Q1 (d: SW, g: PWM, s: GND) part=DEMO-N60-3A\n\
+                motor M1 (+: V12, -: SW) part=DEMO-FAN-12V\n\
+                diode D1 (a: SW, k: V12) part=DEMO-SK40-3A\n\
+                capacitor C1 (V12, GND) 100uF v_max=25V\n\
+                capacitor C2 (V5, GND) 10uF v_max=16V\n";
+    let clean = format!("library \"parts.yaml\"\nrail V12 12V\nrail V5 5V\nground GND\n{body}");
+    write(&proj.join("a.drive"), &clean);
+    let (code, out, _) = run(&proj, &["check", "a.drive", "--format", "compact"]);
+    assert_eq!(code, 0, "the reference board is clean: {out}");
+    // no ground at all: an input error, not a pass
+    write(&proj.join("a.drive"), &clean.replace("ground GND\n", ""));
+    let (code, out, _) = run(&proj, &["check", "a.drive", "--format", "compact"]);
+    assert_eq!(code, 2, "{out}");
+    assert!(out.contains("error[ground-missing]"), "{out}");
+    // the rail misspelt in its statement
+    write(
+        &proj.join("a.drive"),
+        &clean.replace("rail V12 ", "rail V12V "),
+    );
+    let (code, out, _) = run(&proj, &["check", "a.drive", "--format", "compact"]);
+    assert_eq!(code, 1, "{out}");
+    assert!(out.contains("warning[rail-unused]"), "{out}");
+    assert!(out.contains("error[load-unpowered]"), "{out}");
+    // a 10 ohm pull-down: the pin sags below the threshold, the fan is dead
+    write(
+        &proj.join("a.drive"),
+        &clean.replace("(PWM, GND) 100k", "(PWM, GND) 10"),
+    );
+    let (code, out, _) = run(&proj, &["check", "a.drive", "--format", "compact"]);
+    assert_eq!(code, 1, "{out}");
+    assert!(
+        out.contains("error[gate-pulldown-strong]") && out.contains("never turns on"),
+        "{out}"
+    );
+    // 220 ohm: 5 V / (220 + 25) ohm = 20.4 mA, just over the 20 mA
+    // rating, but the gate still reaches 4.5 V: a warning
+    write(
+        &proj.join("a.drive"),
+        &clean.replace("(PWM, GND) 100k", "(PWM, GND) 220"),
+    );
+    let (code, out, _) = run(&proj, &["check", "a.drive", "--format", "compact"]);
+    assert!(
+        out.contains("warning[gate-pulldown-strong]"),
+        "{code} {out}"
+    );
+}
+
+#[test]
+fn control_characters_never_reach_the_terminal() {
+    let (_, proj) = project("escape");
+    write(
+        &proj.join("parts.yaml"),
+        include_str!("fixtures/parts.yaml"),
+    );
+    // a team rule whose message tries to clear the screen and print a pass
+    write(
+        &proj.join("house.yaml"),
+        "rules:\n  - id: team/loud\n    severity: error\n    kinds: [resistor]\n    \
+         require: \"false\"\n    message: \"\\e[2J\\e[HALL CHECKS PASSED {ref}\"\n",
+    );
+    // a comment on the quoted line carries an escape and a direction override
+    let body = "library \"parts.yaml\"\nrail V5 5V\nground GND\n\
+                resistor R1 (V5, GND) 1k # \u{1b}]0;owned\u{7} \u{202e}txet\n";
+    let name = "b\u{1b}[31m.drive";
+    write(&proj.join(name), body);
+    for format in ["human", "compact"] {
+        let (code, out, err) = run(
+            &proj,
+            &[
+                "check",
+                name,
+                "--rules",
+                "house.yaml",
+                "--format",
+                format,
+                "--color",
+                "never",
+            ],
+        );
+        assert_eq!(code, 1, "{format}: {out}{err}");
+        for text in [&out, &err] {
+            assert!(
+                !text
+                    .chars()
+                    .any(|c| c == '\u{1b}' || c == '\u{7}' || c == '\u{202e}'),
+                "{format}: a control character reached the terminal: {text:?}"
+            );
+        }
+        assert!(out.contains("\\u{1b}[2J"), "{format}: shown escaped: {out}");
+        assert!(out.contains("b\\u{1b}[31m.drive"), "{format}: {out}");
+    }
+    // JSON keeps the text exact: the escape is JSON's own
+    let (_, out, _) = run(
+        &proj,
+        &["check", name, "--rules", "house.yaml", "--format", "json"],
+    );
+    assert!(out.contains("\\u001b[2J"), "{out}");
+}
+
+#[cfg(unix)]
+#[test]
+fn a_closed_pipe_ends_the_output_quietly() {
+    use std::io::Read;
+    use std::os::unix::process::ExitStatusExt;
+    use std::process::Stdio;
+    let (_, proj) = project("pipe");
+    let mut text = String::from("rail V5 5V\nground GND\n");
+    for i in 0..3000 {
+        text.push_str(&format!("resistor R{i} (V5, GND) 10k\n"));
+    }
+    write(&proj.join("big.drive"), &text);
+    let mut child = match armature()
+        .args(["facts", "big.drive"])
+        .current_dir(&proj)
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+    {
+        Ok(c) => c,
+        Err(e) => panic!("{e}"),
+    };
+    let mut first = [0u8; 16];
+    if let Some(out) = child.stdout.as_mut() {
+        let _ = out.read_exact(&mut first);
+    }
+    // like `| head -c 16`: the reader goes away after the first bytes
+    drop(child.stdout.take());
+    let out = match child.wait_with_output() {
+        Ok(o) => o,
+        Err(e) => panic!("{e}"),
+    };
+    assert_eq!(out.status.signal(), Some(13), "{:?}", out.status);
+    assert!(
+        out.stderr.is_empty(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+}

@@ -466,6 +466,8 @@ fn configs(results: &[FileResult]) -> Vec<String> {
     v
 }
 
+use crate::trust::escape as esc;
+
 fn configs_line(results: &[FileResult]) -> String {
     let v = configs(results);
     if v.is_empty() {
@@ -603,7 +605,9 @@ fn explain(id: &str, common: &CommonArgs) -> i32 {
             let (l, _) = r.file.line_col(r.span.start());
             println!(
                 "{} (team rule, default {}; {}:{l})\n",
-                r.id, r.severity, r.file.name
+                esc(&r.id),
+                r.severity,
+                esc(&r.file.name)
             );
             println!(
                 "Applies to: {}",
@@ -614,12 +618,12 @@ fn explain(id: &str, common: &CommonArgs) -> i32 {
                     .join(", ")
             );
             if let Some(g) = &r.parts {
-                println!("Parts: {g}");
+                println!("Parts: {}", esc(&g.to_string()));
             }
             if let Some((_, w)) = &r.when {
-                println!("When: {w}");
+                println!("When: {}", esc(w));
             }
-            println!("Requires: {}", r.require.1);
+            println!("Requires: {}", esc(&r.require.1));
             let show = |ps: &[crate::team::Piece]| -> String {
                 ps.iter()
                     .map(|p| match p {
@@ -628,9 +632,9 @@ fn explain(id: &str, common: &CommonArgs) -> i32 {
                     })
                     .collect()
             };
-            println!("Message: {}", show(&r.message));
+            println!("Message: {}", esc(&show(&r.message)));
             if let Some(h) = &r.help {
-                println!("Help: {}", show(h));
+                println!("Help: {}", esc(&show(h)));
             }
             println!("\n{CAUTION}");
             return 0;
@@ -650,7 +654,8 @@ fn explain(id: &str, common: &CommonArgs) -> i32 {
         None => {
             let hint = crate::checks::suggest_rule(id);
             eprintln!(
-                "error: unknown rule `{id}`{}",
+                "error: unknown rule `{}`{}",
+                esc(id),
                 if hint.is_empty() {
                     String::new()
                 } else {
@@ -679,10 +684,10 @@ fn rules(common: &CommonArgs) -> i32 {
     for r in &p.opts.team {
         println!(
             "{:<28} {:<8} {} ({})",
-            r.id,
+            esc(&r.id),
             r.severity.as_str(),
-            r.summary(),
-            r.file.name
+            esc(&r.summary()),
+            esc(&r.file.name)
         );
     }
     let renderer = report::human::Renderer::new(false);
@@ -721,7 +726,7 @@ fn facts(
             use crate::analysis::present;
             if let Some(name) = wave {
                 let Some(pid) = b.circuit.part_id(name) else {
-                    eprintln!("error: `{name}` is not a part of {shown}");
+                    eprintln!("error: `{}` is not a part of {}", esc(name), esc(&shown));
                     return 2;
                 };
                 let e = match edge {
@@ -751,7 +756,7 @@ fn facts(
                     "{}",
                     serde_json::to_string_pretty(&present::facts_json(&b)).unwrap_or_default()
                 ),
-                FactsFormat::Human => print!("{}", present::facts_human(&b)),
+                FactsFormat::Human => print!("{}", esc(&present::facts_human(&b))),
                 FactsFormat::Csv => {
                     eprintln!("error: `--format csv` is for `--wave`");
                     return 2;
@@ -793,14 +798,17 @@ fn export_spice(
         Some(name) => match b.circuit.part_id(name) {
             Some(id) => id,
             None => {
-                eprintln!("error: `{name}` is not a part of {shown}");
+                eprintln!("error: `{}` is not a part of {}", esc(name), esc(&shown));
                 return 2;
             }
         },
         None => match b.analysis.turnoffs.first() {
             Some(t) => t.switch,
             None => {
-                eprintln!("error: {shown} has no switch under an inductive load");
+                eprintln!(
+                    "error: {} has no switch under an inductive load",
+                    esc(&shown)
+                );
                 return 2;
             }
         },

@@ -1180,6 +1180,20 @@ impl<'a> Elaborator<'a> {
                 c.complement.insert((other.0, ko), (d.part, d.pin.clone()));
             }
         }
+        // Every voltage is measured from ground: without one, nothing the
+        // analysis reports would mean anything, so say so instead.
+        if !c.parts.is_empty() && !c.nets.iter().any(|n| matches!(n.kind, NetKind::Ground)) {
+            let span = c.parts.first().map(|p| p.span).unwrap_or_default();
+            push_input(
+                &mut e.errors,
+                e.file,
+                "ground-missing",
+                span,
+                "the netlist declares no `ground`: no voltage can be computed".into(),
+                "no ground for this part",
+                Some("add `ground GND` (or your ground net's name) before the parts".into()),
+            );
+        }
         c.fixed_nets = c
             .nets
             .iter()

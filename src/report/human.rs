@@ -157,6 +157,7 @@ impl Renderer {
     }
 
     pub fn render(&self, f: &Finding) -> String {
+        let f = &*super::for_terminal(f);
         let d = Diag {
             f,
             src: Src(&f.file),

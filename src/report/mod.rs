@@ -5,6 +5,8 @@ pub mod json;
 pub mod sarif;
 
 use crate::finding::Finding;
+use crate::trust::escape;
+use std::borrow::Cow;
 
 /// Output formats of `check`.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -15,18 +17,68 @@ pub enum Format {
     Sarif,
 }
 
-/// `file:line:col: severity[rule]: message`
+/// `file:line:col: severity[rule]: message`, safe for a terminal.
 pub fn compact(f: &Finding) -> String {
     let (l, c) = f.line_col();
     format!(
         "{}:{}:{}: {}[{}]: {}",
-        f.file.name,
+        escape(&f.file.name),
         l,
         c,
         f.severity.as_str(),
-        f.rule,
-        f.message
+        escape(&f.rule),
+        escape(&f.message)
     )
+}
+
+fn needs_escape(s: &str) -> bool {
+    matches!(escape(s), Cow::Owned(_))
+}
+
+/// The finding as a terminal may show it: controls and bidirectional
+/// overrides in its file (name and quoted lines), rule id, message,
+/// labels and help written as `\u{…}`, spans moved to match. Borrowed
+/// unchanged when nothing needs it (the usual case).
+pub fn for_terminal(f: &Finding) -> Cow<'_, Finding> {
+    let own = f.file.for_terminal();
+    let others = f
+        .related
+        .iter()
+        .any(|r| r.file.as_ref().is_some_and(|x| x.for_terminal().is_some()));
+    let texts = needs_escape(&f.rule)
+        || needs_escape(&f.message)
+        || needs_escape(&f.label)
+        || f.help.as_deref().is_some_and(needs_escape)
+        || f.related.iter().any(|r| needs_escape(&r.label));
+    if own.is_none() && !others && !texts {
+        return Cow::Borrowed(f);
+    }
+    let mut g = f.clone();
+    g.rule = escape(&f.rule).into_owned();
+    g.message = escape(&f.message).into_owned();
+    g.label = escape(&f.label).into_owned();
+    g.help = f.help.as_deref().map(|h| escape(h).into_owned());
+    if let Some(e) = own {
+        g.file = e.file.clone();
+        g.span = e.span(f.span);
+    }
+    for r in &mut g.related {
+        r.label = escape(&r.label).into_owned();
+        match &r.file {
+            None => {
+                if let Some(e) = own {
+                    r.span = e.span(r.span);
+                }
+            }
+            Some(x) => {
+                if let Some(e) = x.for_terminal() {
+                    r.span = e.span(r.span);
+                    r.file = Some(e.file.clone());
+                }
+            }
+        }
+    }
+    Cow::Owned(g)
 }
 
 /// Sort key that makes the output stable: file, line, column, rule.

@@ -10,7 +10,8 @@ pub static META: RuleMeta = RuleMeta {
     hazard: false,
     docs: r#"## What it checks
 The gate network's pull-down does not load the controller pin beyond its
-current rating `io_i_max`, and does not divide the pin's level below the
+current rating `io_i_max` (an error when the sagging pin then never
+turns the switch on), and does not divide the pin's level below the
 gate voltage at which the switch's `R_DS(on)` is specified when the pin
 itself would reach it.
 
@@ -146,19 +147,34 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
             };
             match s {
                 Strong::PinOverload { mcu, pin, current, rating, .. } => {
-                    let f = on_part(
+                    // the overloaded pin sags so far that the switch never
+                    // conducts: the load is dead, not merely wasteful
+                    let dead = ctx
+                        .analysis
+                        .switches
+                        .get(&sw)
+                        .is_some_and(|i| !i.ever_on && i.on_states == 0 && !i.drivers.is_empty());
+                    let never = if dead {
+                        format!("; `{}` then never turns on", p.reference)
+                    } else {
+                        String::new()
+                    };
+                    let mut f = on_part(
                         &META,
                         ctx,
                         mcu,
                         "overloaded pin",
                         format!(
-                            "`{}.{pin}` sources {} into the gate network of `{}`, above its {} rating",
+                            "`{}.{pin}` sources {} into the gate network of `{}`, above its {} rating{never}",
                             ref_of(ctx, mcu),
                             a(current),
                             p.reference,
                             a(rating)
                         ),
                     );
+                    if dead {
+                        f.severity = Severity::Error;
+                    }
                     anchor(f).help(format!("raise the pull-down to 10 kΩ–100 kΩ so that the pin sources well under {}", a(rating)))
                 }
                 Strong::Divider { level, vgs, vneed, .. } => {
