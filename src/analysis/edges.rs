@@ -59,8 +59,10 @@ pub struct EdgeResult {
     pub t_decay: Option<f64>,
     pub e_off: f64,
     pub e_aval: f64,
-    /// What each part (other than the switch) did over the turn-off.
-    pub parts: Vec<PartEdge>,
+    /// What each part did over the turn-off (the switch itself included:
+    /// its own figures are `e_off` and `e_aval`). Shared by the switches
+    /// of one run that let go at the same step.
+    pub parts: std::sync::Arc<[PartEdge]>,
     /// Energy delivered into each fixed node (a rail taking back energy).
     pub rail_energy: Vec<(u32, f64)>,
     /// The switch's own body diode: charge carried forward and in breakdown.
@@ -136,9 +138,6 @@ struct Probe {
     km: usize,
     pol: f64,
     main_load: Option<usize>,
-    /// Per element: its local part.
-    part_of: Vec<u32>,
-    switch: u32,
 }
 
 impl Probe {
@@ -174,10 +173,6 @@ struct Acc {
     last_q: Vec<f64>,
     e: Vec<f64>,
     q: Vec<f64>,
-    /// charge carried once the switch's channel has let go (the
-    /// freewheel path proper, not a short through the switch)
-    q_after: Vec<f64>,
-    after: bool,
     i_pk: Vec<f64>,
     /// energy and charge of junctions while reverse-biased (breakdown),
     /// and of a series resistance while its junction is
@@ -197,8 +192,6 @@ impl Acc {
             last_q: vec![0.0; n],
             e: vec![0.0; n],
             q: vec![0.0; n],
-            q_after: vec![0.0; n],
-            after: false,
             i_pk: vec![0.0; n],
             e_rev: vec![0.0; n],
             q_rev: vec![0.0; n],
@@ -231,9 +224,6 @@ impl Acc {
                 let dq = 0.5 * (q + self.last_q[k]) * dt;
                 self.e[k] += de;
                 self.q[k] += dq;
-                if self.after {
-                    self.q_after[k] += dq;
-                }
                 if self.rev[k] {
                     match nl.elems[k].dev {
                         Dev::Diode(_) => {
@@ -341,23 +331,32 @@ fn command_time(cmd: &Command, pin: usize) -> f64 {
 
 /// Simulate a turn-off (and a turn-on) and read the figures.
 pub fn simulate(spec: &EdgeSpec) -> EdgeResult {
+    simulate_many(spec, &[spec.switch])
+        .pop()
+        .unwrap_or_default()
+}
+
+/// One switch watched over a shared run.
+struct Watch {
+    sw: usize,
+    probe: Probe,
+    i0: f64,
+    /// The initial current of the switch's load.
+    il0: f64,
+    body: Vec<usize>,
+    wave: Wave,
+    /// The step at which this switch's channel let go (below 10 % of its
+    /// initial current), as an index into the run's charge snapshots.
+    let_go: Option<usize>,
+}
+
+/// Simulate one command's turn-off (and turn-on) once and read the
+/// figures of every switch in `switches`. Switches that one command moves
+/// together (a gate net shared by many channels) switch in the same run,
+/// so one run serves them all: the figures are those of separate runs,
+/// which would simulate the same circuit under the same command.
+pub fn simulate_many(spec: &EdgeSpec, switches: &[u32]) -> Vec<EdgeResult> {
     let nl = spec.nl;
-    let sw = spec.switch as usize;
-    let Some(km) = nl.elem_index(sw, Role::Main) else {
-        return EdgeResult::default();
-    };
-    let pol = match &nl.elems[km].dev {
-        Dev::Mos(m) => m.polarity,
-        Dev::Bjt(q) => q.polarity,
-        _ => 1.0,
-    };
-    let body: Vec<usize> = nl
-        .elems_of(sw)
-        .iter()
-        .enumerate()
-        .filter(|(_, e)| matches!(e.role, Role::Body | Role::Avalanche))
-        .map(|(i, _)| nl.part_start[sw] as usize + i)
-        .collect();
     let loads: Vec<usize> = (0..nl.elems.len())
         .filter(|&k| matches!(nl.elems[k].dev, Dev::Load { .. }))
         .collect();
@@ -371,23 +370,72 @@ pub fn simulate(spec: &EdgeSpec) -> EdgeResult {
         .max_by(|a, b| a.1.abs().total_cmp(&b.1.abs()))
         .filter(|(_, i)| i.abs() > 1e-6)
         .map(|(&k, _)| k);
-    let probe = Probe {
-        km,
-        pol,
-        main_load,
-        part_of: nl.elems.iter().map(|e| e.part).collect(),
-        switch: spec.switch,
-    };
-    let i0 = pol * super::newton::currents(nl, km, &spec.on.x, &spec.on.ex, None)[0];
-    let il0 = main_load
-        .and_then(|k| loads.iter().position(|&x| x == k))
-        .map_or(0.0, |i| load_i0[i]);
-    let mut res = EdgeResult {
-        i0,
-        load: main_load.map(|k| nl.elems[k].part),
-        il0,
-        ..EdgeResult::default()
-    };
+    // the loads on each node, to find the load a switch carries
+    let mut on_node: std::collections::HashMap<Nd, Vec<usize>> = std::collections::HashMap::new();
+    for (j, &k) in loads.iter().enumerate() {
+        for &n in &nl.elems[k].t {
+            if matches!(n, Nd::Var(_)) {
+                on_node.entry(n).or_default().push(j);
+            }
+        }
+    }
+    let mut watches: Vec<Watch> = Vec::with_capacity(switches.len());
+    let mut results: Vec<Option<EdgeResult>> = Vec::with_capacity(switches.len());
+    for &swp in switches {
+        let sw = swp as usize;
+        let Some(km) = nl.elem_index(sw, Role::Main) else {
+            results.push(Some(EdgeResult::default()));
+            continue;
+        };
+        let pol = match &nl.elems[km].dev {
+            Dev::Mos(m) => m.polarity,
+            Dev::Bjt(q) => q.polarity,
+            _ => 1.0,
+        };
+        let body: Vec<usize> = nl
+            .elems_of(sw)
+            .iter()
+            .enumerate()
+            .filter(|(_, e)| matches!(e.role, Role::Body | Role::Avalanche))
+            .map(|(i, _)| nl.part_start[sw] as usize + i)
+            .collect();
+        let i0 = pol * super::newton::currents(nl, km, &spec.on.x, &spec.on.ex, None)[0];
+        // its load: the one with the most current among those on its
+        // drain or source (collector or emitter); else the group's
+        let ends = [
+            nl.elems[km].t[0],
+            *nl.elems[km].t.last().unwrap_or(&nl.elems[km].t[0]),
+        ];
+        let own = ends
+            .iter()
+            .filter_map(|n| on_node.get(n))
+            .flatten()
+            .map(|&j| (loads[j], load_i0[j]))
+            .max_by(|a, b| a.1.abs().total_cmp(&b.1.abs()))
+            .filter(|(_, i)| i.abs() > 1e-6)
+            .map(|(k, _)| k);
+        let load = own.or(main_load);
+        let il0 = load
+            .and_then(|k| loads.iter().position(|&x| x == k))
+            .map_or(0.0, |i| load_i0[i]);
+        watches.push(Watch {
+            sw,
+            probe: Probe {
+                km,
+                pol,
+                main_load: load,
+            },
+            i0,
+            il0,
+            body,
+            wave: Wave::default(),
+            let_go: None,
+        });
+        results.push(None);
+    }
+    if watches.is_empty() {
+        return results.into_iter().map(Option::unwrap_or_default).collect();
+    }
     // the longest time constant of the loads bounds the run
     let tau = nl
         .elems
@@ -409,53 +457,74 @@ pub fn simulate(spec: &EdgeSpec) -> EdgeResult {
     // partner's delayed edge included)
     let t_snap = t_snap.max(sched.breakpoints().last().copied().unwrap_or(0.0));
     let mut sim = Sim::from_op(nl, spec.on);
-    let mut wave = Wave::default();
     let mut acc = Acc::new(nl.elems.len(), nl.fixed.len());
-    let mut clamp_i: Vec<Vec<f64>> = vec![Vec::new(); nl.part_start.len().saturating_sub(1)];
-    let record = |s: &Step, wave: &mut Wave, acc: &mut Acc, clamp_i: &mut Vec<Vec<f64>>| {
-        wave.t.push(s.t);
-        wave.vds.push(probe.vds(nl, s));
-        wave.vgs.push(probe.vgs(nl, s));
-        wave.id.push(probe.ich(s));
-        wave.il
-            .push(probe.main_load.map_or(0.0, |k| s.currents(k)[0]));
-        if !acc.after && probe.ich(s).abs() < 0.1 * i0.abs() {
-            acc.after = true;
+    let nparts = nl.part_start.len().saturating_sub(1);
+    // the current of every part that may carry freewheel current
+    let clamp_elems: Vec<Option<(usize, Option<usize>)>> = (0..nparts)
+        .map(|p| {
+            let k = nl.elem_index(p, Role::Main)?;
+            matches!(
+                nl.elems[k].dev,
+                Dev::Diode(_) | Dev::Res { .. } | Dev::Mos(_)
+            )
+            .then(|| (k, nl.elem_index(p, Role::Body)))
+        })
+        .collect();
+    let mut clamp_i: Vec<Vec<f64>> = vec![Vec::new(); nparts];
+    // per element, the charge carried up to each step at which a watched
+    // switch let go (one snapshot however many let go at that step)
+    let mut snaps: Vec<(Vec<f64>, Vec<f64>)> = Vec::new();
+    let record = |s: &Step,
+                  ws: &mut [Watch],
+                  acc: &mut Acc,
+                  clamp_i: &mut Vec<Vec<f64>>,
+                  snaps: &mut Vec<(Vec<f64>, Vec<f64>)>| {
+        let mut snapped = false;
+        for w in ws.iter_mut() {
+            let ich = w.probe.ich(s);
+            w.wave.t.push(s.t);
+            w.wave.vds.push(w.probe.vds(nl, s));
+            w.wave.vgs.push(w.probe.vgs(nl, s));
+            w.wave.id.push(ich);
+            w.wave
+                .il
+                .push(w.probe.main_load.map_or(0.0, |k| s.currents(k)[0]));
+            if w.let_go.is_none() && ich.abs() < 0.1 * w.i0.abs() {
+                if !snapped {
+                    snaps.push((acc.q.clone(), acc.q_rev.clone()));
+                    snapped = true;
+                }
+                w.let_go = Some(snaps.len() - 1);
+            }
         }
         acc.add(nl, s);
-        for (p, v) in clamp_i.iter_mut().enumerate() {
-            if p as u32 == probe.switch {
-                continue;
-            }
-            if let Some(k) = nl.elem_index(p, Role::Main)
-                && matches!(
-                    nl.elems[k].dev,
-                    Dev::Diode(_) | Dev::Res { .. } | Dev::Mos(_)
-                )
-            {
+        for (v, ce) in clamp_i.iter_mut().zip(&clamp_elems) {
+            if let Some((k, kb)) = *ce {
                 let mut i = s.currents(k)[0];
-                if let Some(kb) = nl.elem_index(p, Role::Body) {
+                if let Some(kb) = kb {
                     i -= s.currents(kb)[0];
                 }
                 v.push(i);
             }
         }
     };
-    sim.observe(|s| record(s, &mut wave, &mut acc, &mut clamp_i));
-    let done_off = |w: &Wave| -> bool {
-        let n = w.t.len();
-        if n < 3 {
-            return false;
-        }
-        let ich = w.id[n - 1].abs();
-        ich < 0.01 * i0.abs().max(1e-6) && w.t[n - 1] > 10.0 * PIN_EDGE
+    sim.observe(|s| record(s, &mut watches, &mut acc, &mut clamp_i, &mut snaps));
+    let done_off = |ws: &[Watch]| -> bool {
+        ws.iter().all(|w| {
+            let n = w.wave.t.len();
+            n >= 3
+                && w.wave.id[n - 1].abs() < 0.01 * w.i0.abs().max(1e-6)
+                && w.wave.t[n - 1] > 10.0 * PIN_EDGE
+        })
     };
-    let decayed = |w: &Wave| -> bool {
-        let n = w.t.len();
-        n > 2
-            && w.il
-                .last()
-                .is_none_or(|i| i.abs() < 0.02 * il0.abs().max(1e-9))
+    let decayed = |ws: &[Watch]| -> bool {
+        ws.iter().all(|w| {
+            w.wave.t.len() > 2
+                && w.wave
+                    .il
+                    .last()
+                    .is_none_or(|i| i.abs() < 0.02 * w.il0.abs().max(1e-9))
+        })
     };
     // first part: until the turn-on may start
     let mut on_start: Option<Sim> = None;
@@ -463,8 +532,8 @@ pub fn simulate(spec: &EdgeSpec) -> EdgeResult {
     let h_max = (t_cap / 1000.0).max(1e-9);
     if spec.with_turn_on && period > 0.0 {
         let r = sim.run(&sched, t_cap, h_max, &mut |s| {
-            record(s, &mut wave, &mut acc, &mut clamp_i);
-            !(s.t >= t_snap && done_off(&wave))
+            record(s, &mut watches, &mut acc, &mut clamp_i, &mut snaps);
+            !(s.t >= t_snap && done_off(&watches))
         });
         if let Err(e) = r {
             stop_err = Some(e);
@@ -473,21 +542,112 @@ pub fn simulate(spec: &EdgeSpec) -> EdgeResult {
     }
     if stop_err.is_none() {
         let r = sim.run(&sched, t_cap, h_max, &mut |s| {
-            record(s, &mut wave, &mut acc, &mut clamp_i);
-            !(done_off(&wave) && decayed(&wave))
+            record(s, &mut watches, &mut acc, &mut clamp_i, &mut snaps);
+            !(done_off(&watches) && decayed(&watches))
         });
         if let Err(e) = r {
             stop_err = Some(e);
         }
     }
-    res.failed = stop_err;
-    res.v_peak = wave.vds.iter().copied().fold(f64::MIN, f64::max);
     let t_cmd = command_time(&spec.off_cmd, spec.ctl);
-    res.t_cmd = t_cmd;
-    res.t_off = first_below(&wave.t, &wave.id, 0.1 * i0.abs(), t_cmd).map(|t| t - t_cmd);
-    res.t_decay = first_below(&wave.t, &wave.il, 0.1 * il0.abs(), 0.0);
-    res.e_off = acc.e[km];
-    // per part energy and charge (the switch's own breakdown counted apart)
+    let mut outs: Vec<EdgeResult> = Vec::with_capacity(watches.len());
+    let mut shared: Vec<Option<std::sync::Arc<[PartEdge]>>> = vec![None; snaps.len() + 1];
+    let mut watched = vec![false; nparts];
+    for w in &watches {
+        if let Some(x) = watched.get_mut(w.sw) {
+            *x = true;
+        }
+    }
+    for w in &mut watches {
+        let km = w.probe.km;
+        let mut res = EdgeResult {
+            i0: w.i0,
+            load: w.probe.main_load.map(|k| nl.elems[k].part),
+            il0: w.il0,
+            failed: stop_err,
+            ..EdgeResult::default()
+        };
+        let wave = std::mem::take(&mut w.wave);
+        res.v_peak = wave.vds.iter().copied().fold(f64::MIN, f64::max);
+        res.t_cmd = t_cmd;
+        res.t_off = first_below(&wave.t, &wave.id, 0.1 * w.i0.abs(), t_cmd).map(|t| t - t_cmd);
+        res.t_decay = first_below(&wave.t, &wave.il, 0.1 * w.il0.abs(), 0.0);
+        res.e_off = acc.e[km];
+        // per part energy and charge, shared by the switches that let go
+        // at the same step
+        let slot = w.let_go.map_or(0, |i| i + 1);
+        if shared.get(slot).is_some_and(Option::is_none) {
+            let q0 = w.let_go.and_then(|i| snaps.get(i));
+            shared[slot] = Some(part_figures(nl, &acc, q0, &watched));
+        }
+        let parts = shared.get(slot).cloned().flatten().unwrap_or_default();
+        // the switch's own breakdown: its body (or avalanche) diode while
+        // reverse-biased, with the series resistance in the same current
+        for &kb in &w.body {
+            res.e_aval += acc.e_rev[kb];
+            res.q_aval += acc.q_rev[kb];
+            if let Some(krs) = series_of(nl, kb) {
+                res.e_aval += acc.e_rev_rs[krs];
+            }
+        }
+        let sw = w.sw;
+        res.parts = parts;
+        res.rail_energy = acc
+            .rail
+            .iter()
+            .enumerate()
+            .map(|(j, e)| (j as u32, *e))
+            .collect();
+        // the freewheel part whose current the plot shows
+        let best = res
+            .parts
+            .iter()
+            .filter(|x| x.part as usize != sw)
+            .filter(|x| {
+                nl.elem_index(x.part as usize, Role::Main)
+                    .is_some_and(|k| !matches!(nl.elems[k].dev, Dev::Load { .. }))
+            })
+            .max_by(|a, b| a.charge.total_cmp(&b.charge))
+            .map(|x| x.part as usize);
+        let mut wave = wave;
+        if let Some(b) = best
+            && let Some(v) = clamp_i.get(b)
+            && v.len() == wave.t.len()
+        {
+            wave.iclamp = v.clone();
+        } else {
+            wave.iclamp = vec![0.0; wave.t.len()];
+        }
+        res.wave_off = wave;
+        outs.push(res);
+    }
+    // the turn-on, from the state at the start of the next period
+    let on_sim = match on_start {
+        Some(s) => Some(s),
+        None if spec.with_turn_on => Some(sim),
+        None => None,
+    };
+    if let Some(on_sim) = on_sim
+        && stop_err.is_none()
+    {
+        turn_on(spec, on_sim, &watches, &mut outs);
+    }
+    let mut it = outs.into_iter();
+    results
+        .into_iter()
+        .map(|r| r.or_else(|| it.next()).unwrap_or_default())
+        .collect()
+}
+
+/// Every part's energy, peak current and the charge it carried forward
+/// after the snapshot `q0` of total and reverse charge (none: no charge
+/// counted), for the parts that did anything.
+fn part_figures(
+    nl: &Netlist,
+    acc: &Acc,
+    q0: Option<&(Vec<f64>, Vec<f64>)>,
+    watched: &[bool],
+) -> std::sync::Arc<[PartEdge]> {
     let nparts = nl.part_start.len().saturating_sub(1);
     let mut ep: Vec<PartEdge> = (0..nparts)
         .map(|p| PartEdge {
@@ -495,63 +655,40 @@ pub fn simulate(spec: &EdgeSpec) -> EdgeResult {
             ..PartEdge::default()
         })
         .collect();
-    for k in 0..nl.elems.len() {
-        let p = probe.part_of[k] as usize;
+    for (k, e) in nl.elems.iter().enumerate() {
+        let p = e.part as usize;
         if let Some(slot) = ep.get_mut(p) {
             slot.energy += acc.e[k];
-            if matches!(nl.elems[k].role, Role::Main | Role::Body) {
-                slot.charge += acc.q_after[k];
+            if matches!(e.role, Role::Main | Role::Body) {
+                if let Some((q0, r0)) = q0 {
+                    let mut dq = acc.q[k] - q0.get(k).copied().unwrap_or(0.0);
+                    // a body diode in breakdown carries its own channel's
+                    // load (another switch turned off by the same command
+                    // avalanching), not this switch's freewheel current
+                    if e.role == Role::Body {
+                        dq -= acc.q_rev[k] - r0.get(k).copied().unwrap_or(0.0);
+                    }
+                    // nor does the channel of a switch the same command
+                    // turns off: its tail is its own load's current
+                    if e.role == Role::Main && watched.get(p).copied().unwrap_or(false) {
+                        dq = 0.0;
+                    }
+                    slot.charge += dq.max(0.0);
+                }
                 slot.i_peak = slot.i_peak.max(acc.i_pk[k]);
             }
         }
     }
-    // the switch's own breakdown: its body (or avalanche) diode while
-    // reverse-biased, with the series resistance in the same current
-    for &kb in &body {
-        res.e_aval += acc.e_rev[kb];
-        res.q_aval += acc.q_rev[kb];
-        if let Some(krs) = series_of(nl, kb) {
-            res.e_aval += acc.e_rev_rs[krs];
-        }
-    }
-    res.parts = ep
-        .into_iter()
-        .filter(|x| x.part as usize != sw && (x.energy.abs() > 0.0 || x.charge > 0.0))
-        .collect();
-    res.rail_energy = acc
-        .rail
-        .iter()
-        .enumerate()
-        .map(|(j, e)| (j as u32, *e))
-        .collect();
-    // the freewheel part whose current the plot shows
-    let best = res
-        .parts
-        .iter()
-        .filter(|x| {
-            nl.elem_index(x.part as usize, Role::Main)
-                .is_some_and(|k| !matches!(nl.elems[k].dev, Dev::Load { .. }))
-        })
-        .max_by(|a, b| a.charge.total_cmp(&b.charge))
-        .map(|x| x.part as usize);
-    if let Some(b) = best
-        && let Some(v) = clamp_i.get(b)
-        && v.len() == wave.t.len()
-    {
-        wave.iclamp = v.clone();
-    } else {
-        wave.iclamp = vec![0.0; wave.t.len()];
-    }
-    res.wave_off = wave;
-    // the turn-on, from the state at the start of the next period
-    let mut on_sim = match on_start {
-        Some(s) => s,
-        None if spec.with_turn_on => sim,
-        None => return res,
-    };
-    if res.failed.is_some() {
-        return res;
-    }
+    ep.into_iter()
+        .filter(|x| x.energy.abs() > 0.0 || x.charge > 0.0)
+        .collect()
+}
+
+/// The turn-on of the watched switches, from the state at the start of
+/// the next period.
+fn turn_on(spec: &EdgeSpec, mut on_sim: Sim, watches: &[Watch], outs: &mut [EdgeResult]) {
+    let nl = spec.nl;
+    let nparts = nl.part_start.len().saturating_sub(1);
     let back = Command {
         from: spec.off_cmd.to,
         to: spec.off_cmd.from,
@@ -560,70 +697,86 @@ pub fn simulate(spec: &EdgeSpec) -> EdgeResult {
     };
     let t_start = on_sim.t;
     let sched_on = schedule(&back, t_start);
-    let mut w = Wave::default();
+    let switch_parts: Vec<usize> = watches.iter().map(|w| w.sw).collect();
     let diodes: Vec<(u32, usize)> = (0..nparts)
-        .filter(|&p| p != sw)
+        .filter(|p| !switch_parts.contains(p))
         .filter_map(|p| {
             let k = nl.elem_index(p, Role::Main)?;
             matches!(nl.elems[k].dev, Dev::Diode(_)).then_some((p as u32, k))
         })
         .collect();
     let mut irr = vec![0.0f64; diodes.len()];
-    let mut e_tot = 0.0;
-    let mut last: Option<(f64, f64)> = None;
-    let span = (20.0 * res.t_off.unwrap_or(1e-6)).clamp(5e-6, 2e-3);
+    let n = watches.len();
+    let mut waves: Vec<Wave> = vec![Wave::default(); n];
+    let mut e_tot = vec![0.0; n];
+    let mut last: Vec<Option<(f64, f64)>> = vec![None; n];
+    let t_off_max = outs
+        .iter()
+        .filter_map(|r| r.t_off)
+        .fold(None, |a: Option<f64>, t| Some(a.map_or(t, |a| a.max(t))));
+    let span = (20.0 * t_off_max.unwrap_or(1e-6)).clamp(5e-6, 2e-3);
     let t_end = t_start + span;
-    let on_vds = pol
-        * (spec.on.v(nl.elems[km].t[0])
-            - spec
-                .on
-                .v(*nl.elems[km].t.last().unwrap_or(&nl.elems[km].t[0])));
+    let on_vds: Vec<f64> = watches
+        .iter()
+        .map(|w| {
+            let e = &nl.elems[w.probe.km];
+            w.probe.pol * (spec.on.v(e.t[0]) - spec.on.v(*e.t.last().unwrap_or(&e.t[0])))
+        })
+        .collect();
+    let i0_max = watches.iter().map(|w| w.i0.abs()).fold(0.0, f64::max);
     let r = on_sim.run(&sched_on, t_end, (span / 200.0).max(1e-9), &mut |s| {
-        let vds = probe.vds(nl, s);
-        let ich = probe.ich(s);
-        w.t.push(s.t - t_start);
-        w.vds.push(vds);
-        w.vgs.push(probe.vgs(nl, s));
-        w.id.push(ich);
-        w.il.push(probe.main_load.map_or(0.0, |k| s.currents(k)[0]));
-        let p = vds * ich;
-        if let Some((t0, p0)) = last {
-            e_tot += 0.5 * (p + p0) * (s.t - t0);
+        let mut all_settled = s.t > t_start + 20.0 * PIN_EDGE;
+        for (j, w) in watches.iter().enumerate() {
+            let vds = w.probe.vds(nl, s);
+            let ich = w.probe.ich(s);
+            let wv = &mut waves[j];
+            wv.t.push(s.t - t_start);
+            wv.vds.push(vds);
+            wv.vgs.push(w.probe.vgs(nl, s));
+            wv.id.push(ich);
+            wv.il
+                .push(w.probe.main_load.map_or(0.0, |k| s.currents(k)[0]));
+            let p = vds * ich;
+            if let Some((t0, p0)) = last[j] {
+                e_tot[j] += 0.5 * (p + p0) * (s.t - t0);
+            }
+            last[j] = Some((s.t, p));
+            all_settled &= vds.abs() < 2.0 * on_vds[j].abs() + 0.05;
         }
-        last = Some((s.t, p));
         for (j, &(_, k)) in diodes.iter().enumerate() {
             irr[j] = irr[j].max(-s.currents(k)[0]);
         }
-        // settled: the channel carries the load and blocks no more
-        let settled = s.t > t_start + 20.0 * PIN_EDGE
-            && vds.abs() < 2.0 * on_vds.abs() + 0.05
+        // settled: the channels carry the load and block no more
+        let settled = all_settled
             && diodes
                 .iter()
-                .all(|&(_, k)| s.currents(k)[0] > -1e-3 * i0.abs().max(1e-3));
+                .all(|&(_, k)| s.currents(k)[0] > -1e-3 * i0_max.max(1e-3));
         !settled
     });
-    if let Err(e) = r {
-        res.failed = Some(e);
-    }
-    let i_final = w.id.last().copied().unwrap_or(0.0);
     let t_cmd_on = command_time(&back, spec.ctl);
-    res.t_on = first_above(&w.t, &w.id, 0.9 * i_final.abs(), t_cmd_on).map(|t| t - t_cmd_on);
-    let over: Vec<f64> =
-        w.id.iter()
-            .zip(&w.vds)
-            .map(|(i, v)| v * (i.abs() - i_final.abs()).max(0.0))
-            .collect();
-    res.e_rr = integral(&w.t, &over);
-    res.e_on = (e_tot - res.e_rr).max(0.0);
-    res.i_rr = diodes
+    let i_rr: Vec<(u32, f64)> = diodes
         .iter()
         .zip(&irr)
         .filter(|(_, i)| **i > 0.0)
         .map(|(&(p, _), &i)| (p, i))
         .collect();
-    w.iclamp = vec![0.0; w.t.len()];
-    res.wave_on = w;
-    res
+    for ((res, mut w), e_tot) in outs.iter_mut().zip(waves).zip(e_tot) {
+        if let Err(e) = &r {
+            res.failed = Some(*e);
+        }
+        let i_final = w.id.last().copied().unwrap_or(0.0);
+        res.t_on = first_above(&w.t, &w.id, 0.9 * i_final.abs(), t_cmd_on).map(|t| t - t_cmd_on);
+        let over: Vec<f64> =
+            w.id.iter()
+                .zip(&w.vds)
+                .map(|(i, v)| v * (i.abs() - i_final.abs()).max(0.0))
+                .collect();
+        res.e_rr = integral(&w.t, &over);
+        res.e_on = (e_tot - res.e_rr).max(0.0);
+        res.i_rr = i_rr.clone();
+        w.iclamp = vec![0.0; w.t.len()];
+        res.wave_on = w;
+    }
 }
 
 /// The series resistance element feeding a junction element.

@@ -630,6 +630,7 @@ fn point(sw: &solve::LocalSwitch, state: usize, corner: Corner) -> Option<&Point
 
 fn read_switches(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut GroupAcc) {
     let nl = &sol.nl;
+    let links = ResistorLinks::new(nl);
     for ls in &sol.switches {
         let Some(&pid) = grp.parts.get(ls.part as usize) else {
             continue;
@@ -740,28 +741,12 @@ fn read_switches(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &m
             }
         }
         // a stage of another switch's gate network
-        let control_nodes: Vec<Nd> = nl
-            .elems
-            .iter()
-            .filter(|e| e.part != ls.part)
-            .filter_map(|e| match (&e.dev, e.role) {
-                (Dev::Mos(_) | Dev::Bjt(_), Role::Main) | (Dev::Drv { .. }, _) => {
-                    e.t.get(1).copied()
-                }
-                _ => None,
-            })
-            .collect();
         if let Some(km) = nl.elem_index(ls.part as usize, Role::Main) {
             let mut ends: Vec<Nd> = vec![nl.elems[km].t[0], nl.elems[km].t[2]];
             if let Some(ks) = nl.elem_index(ls.part as usize, Role::SeriesR) {
                 ends.push(nl.elems[ks].t[0]);
             }
-            info.gate_stage = ends.iter().any(|&n| {
-                matches!(n, Nd::Var(_))
-                    && control_nodes
-                        .iter()
-                        .any(|&g| g == n || connected_by_resistors(nl, n, g))
-            });
+            info.gate_stage = ends.iter().any(|&n| links.controls_other(n, ls.part));
         }
         let f = &mut a.facts;
         let drive_name = if p.kind.is_bipolar() {
@@ -1048,8 +1033,77 @@ fn supply_of(c: &Circuit, pid: PartId) -> f64 {
     }
 }
 
+/// The parts that carried a switch's load current on after the switch let
+/// go: those with at least a fifth of the load's charge that connect,
+/// through unknown nodes and each other, to the load or the switch. A
+/// diode across another channel's load (which the same command turned
+/// off) carries that load's current and is not on this path.
+fn freewheel_path<'r>(
+    nl: &netlist::Netlist,
+    r: &'r edges::EdgeResult,
+    switch: u32,
+    q_load: f64,
+    is_load: &dyn Fn(u32) -> bool,
+) -> Vec<&'r edges::PartEdge> {
+    if q_load <= 0.0 {
+        return Vec::new();
+    }
+    let candidates: Vec<&edges::PartEdge> = r
+        .parts
+        .iter()
+        .filter(|x| x.part != switch && !is_load(x.part) && x.charge >= 0.2 * q_load)
+        .collect();
+    let var_nodes = |part: u32| -> Vec<Nd> {
+        nl.elems_of(part as usize)
+            .iter()
+            .flat_map(|e| e.t.iter().copied())
+            .filter(|n| matches!(n, Nd::Var(_)))
+            .collect()
+    };
+    let mut by_node: std::collections::HashMap<Nd, Vec<usize>> = std::collections::HashMap::new();
+    let nodes: Vec<Vec<Nd>> = candidates.iter().map(|x| var_nodes(x.part)).collect();
+    for (i, ns) in nodes.iter().enumerate() {
+        for &n in ns {
+            by_node.entry(n).or_default().push(i);
+        }
+    }
+    let mut start = var_nodes(switch);
+    if let Some(lp) = r.load {
+        start.extend(var_nodes(lp));
+    }
+    let mut seen_node: std::collections::HashSet<Nd> = std::collections::HashSet::new();
+    let mut reached = vec![false; candidates.len()];
+    let mut stack = start;
+    while let Some(n) = stack.pop() {
+        if !seen_node.insert(n) {
+            continue;
+        }
+        for &i in by_node.get(&n).into_iter().flatten() {
+            if !reached[i] {
+                reached[i] = true;
+                stack.extend(nodes[i].iter().copied());
+            }
+        }
+    }
+    candidates
+        .into_iter()
+        .zip(reached)
+        .filter_map(|(x, ok)| ok.then_some(x))
+        .collect()
+}
+
 fn read_edges(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut GroupAcc) {
     let nl = &sol.nl;
+    let nparts = nl.part_start.len().saturating_sub(1);
+    let is_load: Vec<bool> = (0..nparts)
+        .map(|p| {
+            nl.elem_index(p, Role::Main)
+                .is_some_and(|k| matches!(nl.elems[k].dev, Dev::Load { .. }))
+        })
+        .collect();
+    let is_load = |p: u32| is_load.get(p as usize).copied().unwrap_or(false);
+    // the energy stored in the loads, per starting state and mode
+    let mut stored: std::collections::HashMap<(u32, Mode), f64> = std::collections::HashMap::new();
     for (ei, er) in sol.edges.iter().enumerate() {
         let Some(&q) = grp.parts.get(er.switch as usize) else {
             continue;
@@ -1057,27 +1111,42 @@ fn read_edges(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut 
         let r = &er.res;
         let load = r.load.and_then(|p| grp.parts.get(p as usize).copied());
         // stored energy and charge of the loads
-        let mut e_load = 0.0;
-        let mut q_load = 0.0f64;
-        for (k, e) in nl.elems.iter().enumerate() {
-            if let Dev::Load { l, .. } = e.dev
-                && let Some(o) = sol.op(er.from as usize, Corner::Max, er.mode)
-            {
-                let i = newton::currents(nl, k, &o.x, &o.ex, None)[0];
-                e_load += 0.5 * l * i * i;
-                if let Some(pe) = r.parts.iter().find(|x| x.part == e.part) {
-                    q_load = q_load.max(pe.charge);
-                }
-            }
-        }
-        let is_load = |p: u32| {
-            nl.elem_index(p as usize, Role::Main)
-                .is_some_and(|k| matches!(nl.elems[k].dev, Dev::Load { .. }))
+        let e_load = *stored.entry((er.from, er.mode)).or_insert_with(|| {
+            let Some(o) = sol.op(er.from as usize, Corner::Max, er.mode) else {
+                return 0.0;
+            };
+            nl.elems
+                .iter()
+                .enumerate()
+                .filter_map(|(k, e)| match e.dev {
+                    Dev::Load { l, .. } => {
+                        let i = newton::currents(nl, k, &o.x, &o.ex, None)[0];
+                        Some(0.5 * l * i * i)
+                    }
+                    _ => None,
+                })
+                .sum()
+        });
+        // the charge the switch's own load carried on after the switch let
+        // go (with no load of its own found, the group's largest)
+        let q_load = if sol.op(er.from as usize, Corner::Max, er.mode).is_some() {
+            let own = r
+                .load
+                .and_then(|lp| r.parts.iter().find(|x| x.part == lp))
+                .map(|x| x.charge);
+            own.unwrap_or_else(|| {
+                r.parts
+                    .iter()
+                    .filter(|x| is_load(x.part))
+                    .map(|x| x.charge)
+                    .fold(0.0f64, f64::max)
+            })
+        } else {
+            0.0
         };
-        let path: Vec<(PartId, f64)> = r
-            .parts
+        let on_path = freewheel_path(nl, r, er.switch, q_load, &is_load);
+        let path: Vec<(PartId, f64)> = on_path
             .iter()
-            .filter(|x| !is_load(x.part) && q_load > 0.0 && x.charge >= 0.2 * q_load)
             .filter_map(|x| grp.parts.get(x.part as usize).map(|&p| (p, x.energy)))
             .collect();
         let rails: Vec<(NetId, f64)> = r
@@ -1207,7 +1276,7 @@ fn read_edges(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut 
             );
         }
         // clamp parts and freewheel diodes
-        for x in &r.parts {
+        for x in &on_path {
             let Some(&dp) = grp.parts.get(x.part as usize) else {
                 continue;
             };
@@ -1500,6 +1569,7 @@ fn read_driver_inputs(c: &Circuit, grp: &Group, sol: &GroupSolution, a: &mut Gro
     else {
         return;
     };
+    let links = ResistorLinks::new(nl);
     for e in &nl.elems {
         let (Dev::Drv { .. }, Role::Out(k)) = (&e.dev, e.role) else {
             continue;
@@ -1524,7 +1594,7 @@ fn read_driver_inputs(c: &Circuit, grp: &Group, sol: &GroupSolution, a: &mut Gro
             .filter(|ls| {
                 nl.elem_index(ls.part as usize, Role::Main)
                     .and_then(|km| nl.elems[km].t.get(1).copied())
-                    .is_some_and(|g| g == out || connected_by_resistors(nl, out, g))
+                    .is_some_and(|g| links.linked(out, g))
             })
             .filter_map(|ls| grp.parts.get(ls.part as usize).copied())
             .collect();
@@ -1604,33 +1674,133 @@ fn read_injections(c: &Circuit, grp: &Group, sol: &GroupSolution, a: &mut GroupA
     }
 }
 
-/// Two nodes joined through resistors only (a gate resistor after a
-/// driver's output).
-fn connected_by_resistors(nl: &netlist::Netlist, a: Nd, b: Nd) -> bool {
-    let mut seen = vec![a];
-    let mut frontier = vec![a];
-    while let Some(n) = frontier.pop() {
+/// Nodes joined through resistors only (a gate resistor after a driver's
+/// output), found once per group: the unknown nodes fall into components
+/// joined by resistors; a fixed node is linked to the components a
+/// resistor touches. Queries are then constant time, where a search per
+/// query made a gate net shared by many channels cost quadratic time.
+struct ResistorLinks {
+    /// Per unknown node: its component.
+    comp: Vec<u32>,
+    /// Per fixed node: the components a resistor joins it to (sorted).
+    fixed: Vec<Vec<u32>>,
+    /// Fixed pairs joined by a resistor directly.
+    fixed_pairs: Vec<(u32, u32)>,
+    /// Per component: up to two parts whose control node is in it or
+    /// joined to it (two are enough to tell "another part's").
+    controls: Vec<[Option<u32>; 2]>,
+}
+
+impl ResistorLinks {
+    fn new(nl: &netlist::Netlist) -> ResistorLinks {
+        fn root(up: &mut [u32], mut i: u32) -> u32 {
+            while up[i as usize] != i {
+                let next = up[up[i as usize] as usize];
+                up[i as usize] = next;
+                i = next;
+            }
+            i
+        }
+        let mut up: Vec<u32> = (0..nl.n as u32).collect();
+        let resistors = nl
+            .elems
+            .iter()
+            .filter(|e| matches!(e.dev, Dev::Res { .. }) && e.role == Role::Main && e.t.len() == 2);
+        let mut touching: Vec<(u32, u32)> = Vec::new();
+        let mut fixed_pairs = Vec::new();
+        for e in resistors {
+            match (e.t[0], e.t[1]) {
+                (Nd::Var(x), Nd::Var(y)) if (x as usize) < up.len() && (y as usize) < up.len() => {
+                    let (rx, ry) = (root(&mut up, x), root(&mut up, y));
+                    if rx != ry {
+                        up[rx.max(ry) as usize] = rx.min(ry);
+                    }
+                }
+                (Nd::Var(v), Nd::Fix(f)) | (Nd::Fix(f), Nd::Var(v)) => touching.push((f, v)),
+                (Nd::Fix(f), Nd::Fix(g)) => fixed_pairs.push((f.min(g), f.max(g))),
+                _ => {}
+            }
+        }
+        let comp: Vec<u32> = (0..up.len() as u32).map(|i| root(&mut up, i)).collect();
+        let mut fixed: Vec<Vec<u32>> = vec![Vec::new(); nl.fixed.len()];
+        for (f, v) in touching {
+            if let (Some(list), Some(&c)) = (fixed.get_mut(f as usize), comp.get(v as usize)) {
+                list.push(c);
+            }
+        }
+        for list in &mut fixed {
+            list.sort_unstable();
+            list.dedup();
+        }
+        let mut links = ResistorLinks {
+            controls: vec![[None; 2]; comp.len()],
+            comp,
+            fixed,
+            fixed_pairs,
+        };
+        // every switch's control node and every driver's input
         for e in &nl.elems {
-            if !matches!(e.dev, Dev::Res { .. }) || e.role != Role::Main {
-                continue;
-            }
-            let other = if e.t[0] == n {
-                e.t[1]
-            } else if e.t[1] == n {
-                e.t[0]
-            } else {
-                continue;
+            let g = match (&e.dev, e.role) {
+                (Dev::Mos(_) | Dev::Bjt(_), Role::Main) | (Dev::Drv { .. }, _) => {
+                    e.t.get(1).copied()
+                }
+                _ => None,
             };
-            if other == b {
-                return true;
+            let comps: Vec<u32> = match g {
+                Some(Nd::Var(v)) => links.comp.get(v as usize).copied().into_iter().collect(),
+                Some(Nd::Fix(f)) => links.fixed.get(f as usize).cloned().unwrap_or_default(),
+                None => Vec::new(),
+            };
+            for c in comps {
+                if let Some(slot) = links.controls.get_mut(c as usize) {
+                    match *slot {
+                        [None, _] => slot[0] = Some(e.part),
+                        [Some(p), None] if p != e.part => slot[1] = Some(e.part),
+                        _ => {}
+                    }
+                }
             }
-            if matches!(other, Nd::Var(_)) && !seen.contains(&other) && seen.len() < 64 {
-                seen.push(other);
-                frontier.push(other);
+        }
+        links
+    }
+
+    /// `a` and `b` are one node or joined through resistors only.
+    fn linked(&self, a: Nd, b: Nd) -> bool {
+        if a == b {
+            return true;
+        }
+        let comp = |n: u32| self.comp.get(n as usize).copied();
+        let near = |f: u32, c: Option<u32>| {
+            c.is_some_and(|c| {
+                self.fixed
+                    .get(f as usize)
+                    .is_some_and(|l| l.binary_search(&c).is_ok())
+            })
+        };
+        match (a, b) {
+            (Nd::Var(x), Nd::Var(y)) => comp(x).is_some() && comp(x) == comp(y),
+            (Nd::Var(v), Nd::Fix(f)) | (Nd::Fix(f), Nd::Var(v)) => near(f, comp(v)),
+            (Nd::Fix(f), Nd::Fix(g)) => {
+                self.fixed_pairs.contains(&(f.min(g), f.max(g)))
+                    || self
+                        .fixed
+                        .get(f as usize)
+                        .is_some_and(|l| l.iter().any(|&c| near(g, Some(c))))
             }
         }
     }
-    false
+
+    /// An unknown node joined to the control node of a part other than
+    /// `part`.
+    fn controls_other(&self, n: Nd, part: u32) -> bool {
+        let Nd::Var(v) = n else {
+            return false;
+        };
+        self.comp
+            .get(v as usize)
+            .and_then(|&c| self.controls.get(c as usize))
+            .is_some_and(|s| s.iter().flatten().any(|&p| p != part))
+    }
 }
 
 fn rail_shorts(c: &Circuit, a: &mut Analysis) {

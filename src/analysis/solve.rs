@@ -457,8 +457,19 @@ fn partners(drives: &[PinDrive], pin: usize) -> Vec<usize> {
 /// this (A); smaller switches are part of a gate network.
 pub const I_LOAD_MIN: f64 = 10e-3;
 
-fn run_edges(sol: &GroupSolution, drives: &[PinDrive]) -> Vec<EdgeRun> {
-    let nl = &sol.nl;
+/// One switch's edges: the command that turns it off, from the state with
+/// the most load current.
+struct EdgePlan {
+    switch: u32,
+    pin: u32,
+    from: u32,
+    to: u32,
+    f_pwm: f64,
+    duty_max: f64,
+    reset_off: bool,
+}
+
+fn plan_edges(sol: &GroupSolution, drives: &[PinDrive]) -> Vec<EdgePlan> {
     let mut out = Vec::new();
     for sw in &sol.switches {
         let (Some(best), Some(&(pin, _))) = (sw.edge_from, sw.controls.first()) else {
@@ -487,10 +498,6 @@ fn run_edges(sol: &GroupSolution, drives: &[PinDrive]) -> Vec<EdgeRun> {
         {
             continue;
         }
-        let delay: Vec<f64> = drives
-            .iter()
-            .map(|d| if d.partner.is_some() { d.deadtime } else { 0.0 })
-            .collect();
         let (f, dmax) = drives
             .get(pin as usize)
             .map_or((0.0, 1.0), |d| (d.f_pwm, d.duty_max));
@@ -502,82 +509,140 @@ fn run_edges(sol: &GroupSolution, drives: &[PinDrive]) -> Vec<EdgeRun> {
         } else {
             dmax
         };
-        let high: Vec<f64> = (0..sol.n_pins)
-            .map(|j| pin_level(nl, j as u32, Corner::Max))
-            .collect();
-        let reset = vec![PinState::HiZ; sol.n_pins];
-        let modes: &[Mode] = if sol.has_run {
-            &[Mode::Stall, Mode::Run]
-        } else {
-            &[Mode::Stall]
-        };
-        for &mode in modes {
-            let Some(on) = sol.op(best as usize, Corner::Max, mode) else {
-                continue;
-            };
-            let cmd = Command {
-                from,
-                to: &to,
-                high: &high,
-                delay_rise: &delay,
-            };
-            let last = mode == *modes.last().unwrap_or(&Mode::Stall);
-            let res = edges::simulate(&EdgeSpec {
-                nl,
-                switch: sw.part,
-                on,
-                off_cmd: cmd,
-                f_pwm: f,
-                duty_max: dmax,
-                with_turn_on: last && f > 0.0,
-                ctl: pin as usize,
-            });
-            out.push(EdgeRun {
-                switch: sw.part,
-                kind: EdgeKind::Toggle,
-                mode,
-                from: best,
-                to: Some(to_i as u32),
-                res,
-            });
-        }
         // a reset while it conducts, when reset turns it off by another path
         let reset_off = sw
             .points
             .iter()
             .any(|p| p.corner == Corner::Max && p.state == 0 && !p.gated);
         let others_differ = sol.states.first().is_some_and(|r| *r != to);
-        if reset_off
-            && others_differ
-            && sol.n_pins > 1
-            && let Some(on) = sol.op(best as usize, Corner::Max, Mode::Stall)
-        {
-            let res = edges::simulate(&EdgeSpec {
+        out.push(EdgePlan {
+            switch: sw.part,
+            pin,
+            from: best,
+            to: to_i as u32,
+            f_pwm: f,
+            duty_max: dmax,
+            reset_off: reset_off && others_differ && sol.n_pins > 1,
+        });
+    }
+    out
+}
+
+/// Simulate the edges of every load switch. Switches that the same
+/// command turns off from the same state share one run (a gate net
+/// driving many channels costs one simulation, not one per channel).
+fn run_edges(sol: &GroupSolution, drives: &[PinDrive]) -> Vec<EdgeRun> {
+    let nl = &sol.nl;
+    let plans = plan_edges(sol, drives);
+    let delay: Vec<f64> = drives
+        .iter()
+        .map(|d| if d.partner.is_some() { d.deadtime } else { 0.0 })
+        .collect();
+    let high: Vec<f64> = (0..sol.n_pins)
+        .map(|j| pin_level(nl, j as u32, Corner::Max))
+        .collect();
+    let reset = vec![PinState::HiZ; sol.n_pins];
+    let modes: &[Mode] = if sol.has_run {
+        &[Mode::Stall, Mode::Run]
+    } else {
+        &[Mode::Stall]
+    };
+    // per plan: its runs, in order (toggle per mode, then reset)
+    let mut runs: Vec<Vec<EdgeRun>> = (0..plans.len()).map(|_| Vec::new()).collect();
+    let mut by_command: Vec<Vec<usize>> = Vec::new();
+    let mut index: std::collections::HashMap<(u32, u32, u32, u64, u64), usize> =
+        std::collections::HashMap::new();
+    for (j, q) in plans.iter().enumerate() {
+        let key = (q.pin, q.from, q.to, q.f_pwm.to_bits(), q.duty_max.to_bits());
+        let slot = *index.entry(key).or_insert_with(|| {
+            by_command.push(Vec::new());
+            by_command.len() - 1
+        });
+        if let Some(v) = by_command.get_mut(slot) {
+            v.push(j);
+        }
+    }
+    for same in &by_command {
+        let Some(p) = same.first().and_then(|&i| plans.get(i)) else {
+            continue;
+        };
+        let switches: Vec<u32> = same.iter().map(|&j| plans[j].switch).collect();
+        let (Some(from), Some(to)) = (
+            sol.states.get(p.from as usize),
+            sol.states.get(p.to as usize),
+        ) else {
+            continue;
+        };
+        for &mode in modes {
+            let Some(on) = sol.op(p.from as usize, Corner::Max, mode) else {
+                continue;
+            };
+            let last = mode == *modes.last().unwrap_or(&Mode::Stall);
+            let spec = EdgeSpec {
                 nl,
-                switch: sw.part,
+                switch: p.switch,
                 on,
                 off_cmd: Command {
                     from,
-                    to: &reset,
+                    to,
                     high: &high,
                     delay_rise: &delay,
                 },
-                f_pwm: 0.0,
-                duty_max: 1.0,
-                with_turn_on: false,
-                ctl: pin as usize,
-            });
-            out.push(EdgeRun {
-                switch: sw.part,
+                f_pwm: p.f_pwm,
+                duty_max: p.duty_max,
+                with_turn_on: last && p.f_pwm > 0.0,
+                ctl: p.pin as usize,
+            };
+            for (&j, res) in same.iter().zip(edges::simulate_many(&spec, &switches)) {
+                runs[j].push(EdgeRun {
+                    switch: plans[j].switch,
+                    kind: EdgeKind::Toggle,
+                    mode,
+                    from: p.from,
+                    to: Some(p.to),
+                    res,
+                });
+            }
+        }
+        let resets: Vec<usize> = same
+            .iter()
+            .copied()
+            .filter(|&j| plans[j].reset_off)
+            .collect();
+        if resets.is_empty() {
+            continue;
+        }
+        let Some(on) = sol.op(p.from as usize, Corner::Max, Mode::Stall) else {
+            continue;
+        };
+        let switches: Vec<u32> = resets.iter().map(|&j| plans[j].switch).collect();
+        let spec = EdgeSpec {
+            nl,
+            switch: p.switch,
+            on,
+            off_cmd: Command {
+                from,
+                to: &reset,
+                high: &high,
+                delay_rise: &delay,
+            },
+            f_pwm: 0.0,
+            duty_max: 1.0,
+            with_turn_on: false,
+            ctl: p.pin as usize,
+        };
+        for (&j, res) in resets.iter().zip(edges::simulate_many(&spec, &switches)) {
+            runs[j].push(EdgeRun {
+                switch: plans[j].switch,
                 kind: EdgeKind::Reset,
                 mode: Mode::Stall,
-                from: best,
+                from: p.from,
                 to: None,
                 res,
             });
         }
     }
-    out
+    runs.into_iter().flatten().collect()
 }
 
 /// A pin's high level at a corner.

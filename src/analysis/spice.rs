@@ -481,7 +481,7 @@ pub fn edge_deck(b: &crate::Built, switch: usize, out: &str) -> Result<EdgeDeck,
     if let Some(x) = r.t_decay {
         expected.push(("t_decay".into(), x));
     }
-    for pe in &r.parts {
+    for pe in r.parts.iter() {
         if let Some(&p) = grp.parts.get(pe.part as usize)
             && matches!(
                 c.part(p).kind,
