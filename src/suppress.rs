@@ -17,6 +17,19 @@ pub fn apply(c: &Circuit, findings: Vec<Finding>) -> (Vec<Finding>, usize) {
     let mut used = vec![false; sups.len()];
     let mut kept = Vec::with_capacity(findings.len());
     let mut suppressed = 0;
+    // the suppressions that cover each line: their own, and the next one
+    // for a comment on a line of its own
+    let mut by_line: std::collections::HashMap<usize, Vec<usize>> =
+        std::collections::HashMap::new();
+    for (i, s) in sups.iter().enumerate() {
+        if s.reason.is_none() {
+            continue;
+        }
+        by_line.entry(s.line).or_default().push(i);
+        if s.own_line {
+            by_line.entry(s.line + 1).or_default().push(i);
+        }
+    }
     for f in findings {
         if f.class == Class::Input {
             kept.push(f);
@@ -28,16 +41,23 @@ pub fn apply(c: &Circuit, findings: Vec<Finding>) -> (Vec<Finding>, usize) {
             .first()
             .and_then(|r| c.part_id(r))
             .map(|p| c.part(p).line);
-        let hit = sups.iter().enumerate().find(|(_, s)| {
-            s.reason.is_some()
-                && s.rules.iter().any(|r| r.node == f.rule)
-                && [Some(line), stmt_line]
-                    .iter()
-                    .flatten()
-                    .any(|&l| s.line == l || (s.own_line && s.line + 1 == l))
-        });
+        let mut lines = [Some(line), stmt_line];
+        if stmt_line == Some(line) {
+            lines[1] = None;
+        }
+        let hit = lines
+            .iter()
+            .flatten()
+            .filter_map(|l| by_line.get(l))
+            .flatten()
+            .copied()
+            .filter(|&i| {
+                sups.get(i)
+                    .is_some_and(|s| s.rules.iter().any(|r| r.node == f.rule))
+            })
+            .min();
         match hit {
-            Some((i, _)) => {
+            Some(i) => {
                 used[i] = true;
                 suppressed += 1;
             }

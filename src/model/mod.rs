@@ -623,6 +623,9 @@ struct Elab<'a> {
     c: Circuit,
     /// One shared copy of each `part=` name.
     part_names: HashMap<String, Arc<str>>,
+    /// Designators for suggestions, built at the first unknown one (drive
+    /// lines are resolved once every part is known).
+    ref_index: Option<suggest::Index>,
 }
 
 const UNKNOWN_KEY: &str = "unknown-key";
@@ -639,6 +642,7 @@ impl<'a> Elab<'a> {
             file,
             errors: Vec::new(),
             part_names: HashMap::new(),
+            ref_index: None,
             c: Circuit {
                 file: file.clone(),
                 design: None,
@@ -899,8 +903,11 @@ impl<'a> Elab<'a> {
 
     fn resolve_pin(&mut self, pin: &ast::PinRef) -> Option<PartId> {
         let Some(id) = self.c.part_by_ref.get(pin.part.node).copied() else {
-            let hint =
-                suggest::did_you_mean(pin.part.node, self.c.part_by_ref.keys().map(|s| s.as_str()));
+            let refs = &self.c.part_by_ref;
+            let index = self
+                .ref_index
+                .get_or_insert_with(|| suggest::Index::new(refs.keys().map(|s| s.as_str())));
+            let hint = suggest::did_you_mean_in(pin.part.node, index);
             self.err(
                 "unknown-ref",
                 pin.part.span,

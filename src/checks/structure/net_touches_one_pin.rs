@@ -66,31 +66,18 @@ pub fn detect(ctx: &Ctx) -> Vec<Lonely> {
     if lonely.is_empty() {
         return Vec::new();
     }
-    // Candidates for a suggestion: nets that are connected, indexed by
-    // their first two characters on a large board (comparing every pair
-    // of names would be quadratic).
-    let large = c.nets.len() > 5000;
-    let key = |s: &str| -> String {
-        if large {
-            s.chars().take(2).collect()
-        } else {
-            String::new()
-        }
-    };
-    let mut index: std::collections::HashMap<String, Vec<&str>> = std::collections::HashMap::new();
-    for m in &c.nets {
-        if m.conns.len() > 1 || m.kind != NetKind::Signal {
-            index.entry(key(&m.name)).or_default().push(m.name.as_str());
-        }
-    }
+    // candidates for a suggestion: the nets that are connected
+    let index = suggest::Index::new(
+        c.nets
+            .iter()
+            .filter(|m| m.conns.len() > 1 || m.kind != NetKind::Signal)
+            .map(|m| m.name.as_str()),
+    );
     lonely
         .into_iter()
         .map(|(i, pid)| {
             let n = c.net(i);
-            let suggestion = index
-                .get(&key(&n.name))
-                .and_then(|cands| suggest::closest(&n.name, cands.iter().copied()))
-                .map(str::to_string);
+            let suggestion = index.closest(&n.name).map(str::to_string);
             Lonely {
                 net: i,
                 part: pid,

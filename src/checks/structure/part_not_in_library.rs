@@ -44,18 +44,19 @@ pub struct Unknown<'a> {
     pub part: usize,
     pub name: &'a str,
     pub span: crate::source::Span,
-    pub suggestion: Option<&'a str>,
+    pub suggestion: Option<String>,
 }
 
 pub fn detect<'a>(ctx: &'a Ctx) -> Vec<Unknown<'a>> {
     let c = ctx.circuit;
     let mut out = Vec::new();
+    let mut index: Option<suggest::Index> = None;
     for (i, p) in c.parts.iter().enumerate() {
         if let Some((name, span)) = p.part_not_in_library.as_deref() {
-            let suggestion = suggest::closest(
-                name,
-                ctx.settings.known_part_names.iter().map(|s| s.as_str()),
-            );
+            let index = index.get_or_insert_with(|| {
+                suggest::Index::new(ctx.settings.known_part_names.iter().map(|s| s.as_str()))
+            });
+            let suggestion = index.closest(name).map(str::to_string);
             out.push(Unknown {
                 part: i,
                 name,
@@ -72,7 +73,7 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
         .into_iter()
         .map(|u| {
             let p = ctx.circuit.part(u.part);
-            let help = match u.suggestion {
+            let help = match u.suggestion.as_deref() {
                 Some(s) => format!("did you mean `{s}`?"),
                 None if ctx.settings.known_part_names.is_empty() => {
                     "no library is loaded: add `library \"parts.yaml\"` or pass `--library FILE`"

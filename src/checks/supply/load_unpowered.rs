@@ -104,13 +104,17 @@ pub fn detect(ctx: &Ctx) -> Vec<usize> {
 
 fn check(ctx: &Ctx) -> Vec<Finding> {
     let c = ctx.circuit;
-    let rails: Vec<&str> = c
-        .nets
-        .iter()
-        .filter(|n| matches!(n.kind, NetKind::Rail(_)))
-        .map(|n| n.name.as_str())
-        .collect();
-    detect(ctx)
+    let found = detect(ctx);
+    if found.is_empty() {
+        return Vec::new();
+    }
+    let rails = crate::suggest::Index::new(
+        c.nets
+            .iter()
+            .filter(|n| matches!(n.kind, NetKind::Rail(_)))
+            .map(|n| n.name.as_str()),
+    );
+    found
         .into_iter()
         .map(|i| {
             let p = c.part(i);
@@ -120,7 +124,7 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
                 .map(|x| {
                     (
                         c.net(x.net).name.as_str(),
-                        crate::suggest::did_you_mean(&c.net(x.net).name, rails.iter().copied()),
+                        crate::suggest::did_you_mean_in(&c.net(x.net).name, &rails),
                     )
                 })
                 .find(|(_, h)| !h.is_empty());

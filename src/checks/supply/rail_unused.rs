@@ -50,17 +50,21 @@ pub fn detect(ctx: &Ctx) -> Vec<usize> {
 
 fn check(ctx: &Ctx) -> Vec<Finding> {
     let c = ctx.circuit;
-    let used: Vec<&str> = c
-        .nets
-        .iter()
-        .filter(|n| !n.conns.is_empty())
-        .map(|n| n.name.as_str())
-        .collect();
-    detect(ctx)
+    let found = detect(ctx);
+    if found.is_empty() {
+        return Vec::new();
+    }
+    let used = crate::suggest::Index::new(
+        c.nets
+            .iter()
+            .filter(|n| !n.conns.is_empty())
+            .map(|n| n.name.as_str()),
+    );
+    found
         .into_iter()
         .map(|i| {
             let n = c.net(i);
-            let hint = crate::suggest::did_you_mean(&n.name, used.iter().copied());
+            let hint = crate::suggest::did_you_mean_in(&n.name, &used);
             let f = crate::checks::finding(
                 &META,
                 ctx,
