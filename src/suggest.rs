@@ -91,7 +91,8 @@ pub fn distance_within(a: &[char], b: &[char], k: usize) -> Option<usize> {
 pub struct Index {
     names: Vec<String>,
     chars: Vec<Vec<char>>,
-    lower: std::collections::HashMap<String, u32>,
+    /// Lowercase name: the names of that spelling, first in order first.
+    lower: std::collections::HashMap<String, Vec<u32>>,
     pairs: std::collections::HashMap<(char, char), Vec<u32>>,
 }
 
@@ -115,7 +116,10 @@ impl Index {
         let mut pairs: std::collections::HashMap<(char, char), Vec<u32>> =
             std::collections::HashMap::new();
         for (i, (n, c)) in names.iter().zip(&chars).enumerate() {
-            lower.entry(n.to_lowercase()).or_insert(i as u32);
+            lower
+                .entry(n.to_lowercase())
+                .or_insert_with(Vec::new)
+                .push(i as u32);
             if c.len() <= MAX_WORD {
                 for p in pairs_of(c) {
                     pairs.entry(p).or_default().push(i as u32);
@@ -137,9 +141,13 @@ impl Index {
         if w.len() > MAX_WORD {
             return None;
         }
-        if let Some(&i) = self.lower.get(&word.to_lowercase())
-            && let Some(n) = self.names.get(i as usize)
-            && n != word
+        if let Some(n) = self
+            .lower
+            .get(&word.to_lowercase())
+            .into_iter()
+            .flatten()
+            .filter_map(|&i| self.names.get(i as usize))
+            .find(|n| n.as_str() != word)
         {
             return Some(n);
         }
@@ -239,7 +247,8 @@ mod tests {
     #[test]
     fn the_index_agrees_with_the_scan() {
         let mut names: Vec<String> = (0..3000).map(|i| format!("DEMO-R-{i:05}")).collect();
-        names.extend(["FAN_SW1", "GND", "VBAT", "MOTOR_A", "MOTOR_B", "X"].map(String::from));
+        names
+            .extend(["FAN_SW1", "GND", "gnd", "VBAT", "MOTOR_A", "MOTOR_B", "X"].map(String::from));
         let idx = Index::new(names.iter().map(String::as_str));
         for w in [
             "DEMO-R-X00017",
@@ -252,6 +261,7 @@ mod tests {
             "Y",
             "zzzzzzzzzzzz",
             "DEMO-R-00017",
+            "Gnd",
         ] {
             assert_eq!(
                 idx.closest(w),

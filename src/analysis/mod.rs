@@ -457,13 +457,15 @@ fn read_group(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution) -> Group
         .zip(ext)
         .filter_map(|(&n, e)| e.map(|(hi, lo)| (n, hi, lo)))
         .collect();
-    read_switches(c, gi, grp, sol, &mut a);
+    // resistor-joined nodes, for both readers that ask
+    let links = ResistorLinks::new(&sol.nl);
+    read_switches(c, gi, grp, sol, &links, &mut a);
     read_loads(c, gi, grp, sol, &mut a);
     read_edges(c, gi, grp, sol, &mut a);
     read_legs(c, grp, sol, &mut a);
     read_diodes(c, grp, sol, &mut a);
     read_resistors(c, grp, sol, &mut a);
-    read_driver_inputs(c, grp, sol, &mut a);
+    read_driver_inputs(c, grp, sol, &links, &mut a);
     read_injections(c, grp, sol, &mut a);
     a
 }
@@ -628,9 +630,15 @@ fn point(sw: &solve::LocalSwitch, state: usize, corner: Corner) -> Option<&Point
         .find(|p| p.corner == corner && p.state as usize == state)
 }
 
-fn read_switches(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut GroupAcc) {
+fn read_switches(
+    c: &Circuit,
+    gi: usize,
+    grp: &Group,
+    sol: &GroupSolution,
+    links: &ResistorLinks,
+    a: &mut GroupAcc,
+) {
     let nl = &sol.nl;
-    let links = ResistorLinks::new(nl);
     for ls in &sol.switches {
         let Some(&pid) = grp.parts.get(ls.part as usize) else {
             continue;
@@ -1561,7 +1569,13 @@ fn read_resistors(c: &Circuit, grp: &Group, sol: &GroupSolution, a: &mut GroupAc
     }
 }
 
-fn read_driver_inputs(c: &Circuit, grp: &Group, sol: &GroupSolution, a: &mut GroupAcc) {
+fn read_driver_inputs(
+    c: &Circuit,
+    grp: &Group,
+    sol: &GroupSolution,
+    links: &ResistorLinks,
+    a: &mut GroupAcc,
+) {
     let nl = &sol.nl;
     let Some(reset) = sol
         .op(0, Corner::Max, Mode::Stall)
@@ -1569,7 +1583,6 @@ fn read_driver_inputs(c: &Circuit, grp: &Group, sol: &GroupSolution, a: &mut Gro
     else {
         return;
     };
-    let links = ResistorLinks::new(nl);
     for e in &nl.elems {
         let (Dev::Drv { .. }, Role::Out(k)) = (&e.dev, e.role) else {
             continue;
