@@ -155,6 +155,21 @@ fn configuration_stops_at_the_project_root_and_is_named() {
         out.contains("armature.yaml:1:") && out.contains("outside the project root"),
         "{out}"
     );
+    // the other commands honour the same configuration errors
+    for args in [
+        &["facts", "a.drive"][..],
+        &["facts", "a.drive", "--format", "json"][..],
+        &["export", "spice", "a.drive"][..],
+    ] {
+        let (code, out, err) = run(&proj, args);
+        assert_eq!(code, 2, "{args:?}: {out}{err}");
+        assert!(err.contains("outside the project root"), "{args:?}: {err}");
+        assert!(out.is_empty(), "{args:?}: {out}");
+    }
+    write(&proj.join("armature.yaml"), "severity:\n  no-such-rule: off\n");
+    let (code, _, err) = run(&proj, &["facts", "a.drive"]);
+    assert_eq!(code, 2, "{err}");
+    assert!(err.contains("armature.yaml:2:"), "{err}");
 }
 
 #[test]
@@ -393,4 +408,47 @@ fn a_closed_pipe_ends_the_output_quietly() {
         "{}",
         String::from_utf8_lossy(&out.stderr)
     );
+}
+
+#[test]
+fn sarif_uris_are_percent_encoded() {
+    let (_, proj) = project("uri");
+    let body = "rail V5 5V\nground GND\nresistor R1 (V5, GND) 1k\nresistor R1 (V5, GND) 2k\n";
+    let name = "a #1 %41?\u{7}é.drive";
+    write(&proj.join(name), body);
+    let (code, out, err) = run(&proj, &["check", name, "--format", "sarif"]);
+    assert!(code == 1 || code == 2, "{out}{err}");
+    let doc: serde_json::Value = match serde_json::from_str(&out) {
+        Ok(v) => v,
+        Err(e) => panic!("{e}: {out}"),
+    };
+    let mut uris = Vec::new();
+    collect_uris(&doc, &mut uris);
+    assert!(!uris.is_empty(), "{out}");
+    let want = "a%20%231%20%2541%3F%07%C3%A9.drive";
+    assert!(uris.iter().any(|u| u == want), "{uris:?}");
+    for u in &uris {
+        assert!(
+            u.bytes().all(|b| b.is_ascii_graphic()
+                && !matches!(b, b'#' | b'?' | b' ' | b'\\')),
+            "{u}"
+        );
+    }
+}
+
+fn collect_uris(v: &serde_json::Value, out: &mut Vec<String>) {
+    match v {
+        serde_json::Value::Object(m) => {
+            for (k, x) in m {
+                if k == "uri" {
+                    if let Some(s) = x.as_str() {
+                        out.push(s.to_string());
+                    }
+                }
+                collect_uris(x, out);
+            }
+        }
+        serde_json::Value::Array(a) => a.iter().for_each(|x| collect_uris(x, out)),
+        _ => {}
+    }
 }

@@ -36,12 +36,12 @@ pub enum Command {
         #[command(flatten)]
         common: CommonArgs,
     },
-    /// Print the computed quantities of every part of a netlist
     /// Export a simulator testbench
     Export {
         #[command(subcommand)]
         what: ExportWhat,
     },
+    /// Print the computed quantities of every part of a netlist
     Facts {
         path: PathBuf,
         #[arg(long, value_enum, default_value_t = FactsFormat::Human)]
@@ -330,6 +330,21 @@ fn profile(config: Option<&Path>, common: &CommonArgs) -> Profile {
         }
     }
     Profile { opts, errors }
+}
+
+/// The options for one file, or `None` after printing the configuration's
+/// or rule files' errors: a command that cannot honour the configuration
+/// must not answer as if there were none.
+fn profile_or_report(file: &Path, common: &CommonArgs) -> Option<Options> {
+    let p = profile(config_for(file, common).as_deref(), common);
+    if p.errors.is_empty() {
+        return Some(p.opts);
+    }
+    let r = report::human::Renderer::new(false);
+    for e in &p.errors {
+        eprint!("{}", r.render(e));
+    }
+    None
 }
 
 fn config_for(file: &Path, common: &CommonArgs) -> Option<PathBuf> {
@@ -704,7 +719,9 @@ fn facts(
     edge: EdgeArg,
     common: &CommonArgs,
 ) -> i32 {
-    let opts = profile(config_for(path, common).as_deref(), common).opts;
+    let Some(opts) = profile_or_report(path, common) else {
+        return 2;
+    };
     let cache = LibraryCache::default();
     let shown = crate::shown_path(path);
     let file = match crate::read_netlist(path, &shown) {
@@ -774,7 +791,9 @@ fn export_spice(
     corner: CornerArg,
     common: &CommonArgs,
 ) -> i32 {
-    let opts = profile(config_for(path, common).as_deref(), common).opts;
+    let Some(opts) = profile_or_report(path, common) else {
+        return 2;
+    };
     let cache = LibraryCache::default();
     let shown = crate::shown_path(path);
     let r = report::human::Renderer::new(false);

@@ -41,8 +41,26 @@ pub fn fingerprint(f: &Finding) -> String {
     ))
 }
 
-fn uri(name: &str) -> String {
-    name.replace('\\', "/").replace(' ', "%20")
+/// A relative URI reference for a file name: backslashes become `/`, and
+/// every byte outside RFC 3986's unreserved set and `/` is percent-encoded
+/// (UTF-8), so `#`, `%`, `?`, spaces and control characters cannot change
+/// what the reference means.
+pub fn uri(name: &str) -> String {
+    percent_encode(&name.replace('\\', "/"), false)
+}
+
+/// `colon` keeps `:` (a drive letter in an absolute `file:` URI); in a
+/// relative reference a colon could read as a scheme, so it is encoded.
+fn percent_encode(path: &str, colon: bool) -> String {
+    let mut out = String::with_capacity(path.len());
+    for &b in path.as_bytes() {
+        if b.is_ascii_alphanumeric() || matches!(b, b'-' | b'.' | b'_' | b'~' | b'/') || (colon && b == b':') {
+            out.push(b as char);
+        } else {
+            out.push_str(&format!("%{b:02X}"));
+        }
+    }
+    out
 }
 
 fn region(file: &crate::source::SourceFile, span: crate::source::Span) -> Value {
@@ -152,7 +170,7 @@ pub fn document(findings: &[Finding], team: &[Arc<TeamRule>]) -> Value {
             format!(
                 "file://{}{}/",
                 if s.starts_with('/') { "" } else { "/" },
-                s.replace(' ', "%20")
+                percent_encode(&s, true)
             )
         })
         .unwrap_or_else(|| "file:///".to_string());
