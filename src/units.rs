@@ -122,6 +122,8 @@ pub enum UnitError {
         expected: Dimension,
         found: Dimension,
     },
+    /// A temperature colder than absolute zero.
+    BelowAbsoluteZero,
 }
 
 impl fmt::Display for UnitError {
@@ -129,6 +131,9 @@ impl fmt::Display for UnitError {
         match self {
             UnitError::NotANumber => write!(f, "expected a number with an optional unit"),
             UnitError::OutOfRange => write!(f, "number out of range"),
+            UnitError::BelowAbsoluteZero => {
+                write!(f, "a temperature below absolute zero (−273.15 °C, 0 K)")
+            }
             UnitError::UnknownUnit(u) => write!(
                 f,
                 "unknown unit `{u}` (known: V A ohm Ω F H Hz W s C J K K/W degC/W degC °C %, with prefixes p n u µ m k M G)"
@@ -327,9 +332,15 @@ pub fn parse_as(text: &str, expected: Dimension) -> Result<Quantity, UnitError> 
     {
         return Ok(Quantity::new(v * 1e3, Dimension::Resistance));
     }
-    let q = parse(t)?;
-    coerce(q, expected, text)
+    let q = coerce(parse(t)?, expected, text)?;
+    if expected == Dimension::Temperature && q.value < ABSOLUTE_ZERO_C {
+        return Err(UnitError::BelowAbsoluteZero);
+    }
+    Ok(q)
 }
+
+/// Absolute zero in °C (temperatures are held in °C).
+pub const ABSOLUTE_ZERO_C: f64 = -273.15;
 
 /// Like `parse_as`, for a temperature difference (`25degC`, `25K`).
 pub fn parse_delta_temperature(text: &str) -> Result<Quantity, UnitError> {
@@ -378,6 +389,8 @@ pub fn format_si(value: f64, dim: Dimension) -> String {
     let a = value.abs();
     let (scaled, prefix) = if a == 0.0 {
         (0.0, "")
+    } else if a >= 0.9995e12 {
+        (value / 1e12, "T")
     } else if a >= 1e9 {
         (value / 1e9, "G")
     } else if a >= 1e6 {
@@ -392,8 +405,10 @@ pub fn format_si(value: f64, dim: Dimension) -> String {
         (value * 1e6, "µ")
     } else if a >= 0.9995e-9 {
         (value * 1e9, "n")
-    } else {
+    } else if a >= 0.9995e-12 {
         (value * 1e12, "p")
+    } else {
+        (value * 1e15, "f")
     };
     format!("{} {prefix}{unit}", sig3(scaled))
 }
@@ -410,11 +425,26 @@ fn display_floor(dim: Dimension) -> f64 {
 }
 
 /// Three significant digits, no trailing zeros: 13.8, 2.3, 40, 0.12.
+/// Beyond four digits either way (from 10,000, below 0.001) the number is
+/// written with an exponent, `1.23e5`, so that no value of any size prints
+/// more than four significant digits.
 pub fn sig3(v: f64) -> String {
     if v == 0.0 {
         return "0".to_string();
     }
+    if !v.is_finite() {
+        return v.to_string();
+    }
     let a = v.abs();
+    if !(1e-3..9999.5).contains(&a) {
+        let s = format!("{v:.2e}");
+        return match s.split_once('e') {
+            Some((m, e)) if m.contains('.') => {
+                format!("{}e{e}", m.trim_end_matches('0').trim_end_matches('.'))
+            }
+            _ => s,
+        };
+    }
     let decimals = if a >= 100.0 {
         0
     } else if a >= 10.0 {
@@ -606,5 +636,50 @@ mod tests {
         assert_eq!(format_si(0.0, Dimension::Voltage), "0 V");
         assert_eq!(format_si(61.5, Dimension::Temperature), "61.5 °C");
         assert_eq!(percent(0.8), "80 %");
+    }
+
+    /// No value of any size prints more than four significant digits.
+    #[test]
+    fn huge_and_tiny_values_print_short() {
+        assert_eq!(format_si(2.5e12, Dimension::Voltage), "2.5 TV");
+        assert_eq!(format_si(1e300, Dimension::Voltage), "1e288 TV");
+        assert_eq!(format_si(3.3e-14, Dimension::Charge), "33 fC");
+        assert_eq!(format_si(1e300, Dimension::Temperature), "1e300 °C");
+        assert_eq!(format_si(12345.0, Dimension::Number), "1.23e4");
+        assert_eq!(format_si(9999.0, Dimension::Number), "9999");
+        assert_eq!(
+            format_si(-1.5e200, Dimension::ThermalResistance),
+            "-1.5e200 K/W"
+        );
+        for e in -300..=300 {
+            let v = 1.234_567 * 10f64.powi(e);
+            for d in [
+                Dimension::Voltage,
+                Dimension::Number,
+                Dimension::Temperature,
+            ] {
+                let s = format_si(v, d);
+                let digits = s
+                    .split(['e', ' '])
+                    .next()
+                    .unwrap_or("")
+                    .trim_start_matches(['-', '0', '.'])
+                    .chars()
+                    .filter(|c| c.is_ascii_digit())
+                    .count();
+                assert!(digits <= 4 && s.len() <= 16, "{v:e}: {s}");
+            }
+        }
+    }
+
+    #[test]
+    fn temperatures_below_absolute_zero_are_refused() {
+        assert!(parse_as("-273.15degC", Dimension::Temperature).is_ok());
+        assert!(parse_as("0K", Dimension::Temperature).is_ok());
+        assert_eq!(
+            parse_as("-274degC", Dimension::Temperature),
+            Err(UnitError::BelowAbsoluteZero)
+        );
+        assert!(parse_as("-1K", Dimension::Temperature).is_err());
     }
 }

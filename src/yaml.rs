@@ -220,6 +220,36 @@ pub fn scalar_text(v: &Value) -> Option<String> {
     }
 }
 
+/// The text of a scalar that holds a quantity. YAML reads `0x14`, `0o24`,
+/// `0b10100` and `.inf` as numbers; a rating written so is almost always a
+/// mistake (or a disguise), so only decimal numbers are accepted: the
+/// number's text as written at `path` must be decimal. `Err` carries the
+/// message; `Ok(None)` means the value is not a scalar.
+pub fn quantity_text(doc: &YamlDoc, path: &str, v: &Value) -> Result<Option<String>, String> {
+    if let Value::Number(_) = v {
+        let raw = doc.file.slice(doc.value_span(path)).trim();
+        let digits = raw.trim_start_matches(['+', '-']);
+        let lower = digits.to_ascii_lowercase();
+        let decimal = !lower.is_empty()
+            && !lower.starts_with("0x")
+            && !lower.starts_with("0o")
+            && !lower.starts_with("0b")
+            && !lower.contains("inf")
+            && !lower.contains("nan")
+            && lower
+                .chars()
+                .all(|c| c.is_ascii_digit() || matches!(c, '.' | 'e' | '+' | '-' | '_'))
+            && !lower.contains('_');
+        if !decimal {
+            return Err(format!(
+                "write the number in decimal: YAML reads `{raw}` as {}, which is rarely what a rating means",
+                scalar_text(v).unwrap_or_default()
+            ));
+        }
+    }
+    Ok(scalar_text(v))
+}
+
 /// What a YAML value is, for messages.
 pub fn describe(v: &Value) -> &'static str {
     match v {

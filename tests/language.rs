@@ -282,3 +282,101 @@ fn instance_values_override_the_library() {
     assert_eq!(q.num("rds_on"), Some(0.5));
     assert_eq!(q.num("vds_max"), Some(60.0));
 }
+
+#[test]
+fn values_outside_their_meaning_are_located_errors() {
+    let got = errors(
+        "ambient -300degC\nrail V 12V\nground GND\n\
+         resistor R1 (V, GND) 1k tol=1% tol=2%\n\
+         resistor R2 (V, GND) 1k value=2k\n\
+         resistor R3 (V, GND) 1k p_max=0W tol=-1%\n\
+         nmos Q1 (d: V, g: GND, s: GND) vds_max=-60V id_max=3A tj_max=-274degC\n\
+         diode D1 (a: GND, k: V) vrrm=-5V\n\
+         pmos Q2 (d: GND, g: V, s: V) vds_max=30V vgs_th=-2V tj_max=150degC\n",
+    );
+    let has = |needle: &str, line: usize, col: usize| {
+        assert!(
+            got.iter()
+                .any(|(m, l, c)| m.contains(needle) && *l == line && *c == col),
+            "{needle} at {line}:{col}: {got:?}"
+        );
+    };
+    has("below absolute zero", 1, 9);
+    has("`tol` is given twice for `R1`", 4, 32);
+    has("`value` is given twice for `R2`", 5, 25);
+    has("`p_max`: a rating must be above zero", 6, 31);
+    has("`tol`", 6, 38);
+    has("`vds_max`: a rating must be above zero", 7, 40);
+    has("`tj_max`: a temperature below absolute zero", 7, 62);
+    has("`vrrm`: a rating must be above zero", 8, 30);
+    // a p-channel threshold may carry its sign; its ratings are magnitudes
+    assert!(!got.iter().any(|(_, l, _)| *l == 9), "{got:?}");
+    assert_eq!(got.len(), 8, "{got:?}");
+}
+
+#[test]
+fn library_values_are_decimal_positive_and_defined_once() {
+    let dir = std::env::temp_dir().join(format!("armature-libval-{}", std::process::id()));
+    let _ = std::fs::create_dir_all(&dir);
+    let _ = std::fs::write(
+        dir.join("a.yaml"),
+        "parts:\n  P1:\n    kind: nmos\n    vds_max: 0x3C\n    id_max: -3A\n    vgs_th: 2\n  \
+         R1:\n    kind: resistor\n    p_max: 0.25W\n",
+    );
+    let _ = std::fs::write(
+        dir.join("b.yaml"),
+        "# the same part again\nparts:\n  R1:\n    kind: resistor\n    p_max: 1W\n",
+    );
+    let net = dir.join("n.drive");
+    let _ = std::fs::write(&net, "library \"a.yaml\"\nground GND\n");
+    let r = armature::check_path(&net, &Options::default(), &Default::default());
+    let got: Vec<(String, usize, usize)> = r
+        .findings
+        .iter()
+        .map(|f| (f.message.clone(), f.line_col().0, f.line_col().1))
+        .collect();
+    assert!(
+        got.iter().any(
+            |(m, l, c)| m.contains("`vds_max`: write the number in decimal")
+                && m.contains("as 60")
+                && *l == 4
+                && *c == 14
+        ),
+        "{got:?}"
+    );
+    assert!(
+        got.iter().any(
+            |(m, l, c)| m.contains("`id_max`: a rating must be above zero") && *l == 5 && *c == 13
+        ),
+        "{got:?}"
+    );
+    assert_eq!(got.len(), 2, "a plain decimal `2` is fine: {got:?}");
+    // two libraries defining one part: an error naming both lines
+    let _ = std::fs::write(
+        dir.join("a.yaml"),
+        "parts:\n  R1:\n    kind: resistor\n    p_max: 0.25W\n",
+    );
+    let _ = std::fs::write(
+        &net,
+        "library \"a.yaml\"\nlibrary \"b.yaml\"\nrail V 12V\nground GND\nresistor RA (V, GND) 10k part=R1\n",
+    );
+    let r = armature::check_path(&net, &Options::default(), &Default::default());
+    let Some(f) = r
+        .findings
+        .iter()
+        .find(|f| f.message.contains("defined in two libraries"))
+    else {
+        panic!(
+            "{:?}",
+            r.findings.iter().map(|f| &f.message).collect::<Vec<_>>()
+        )
+    };
+    assert!(
+        f.message.contains("a.yaml:2") && f.message.contains("b.yaml:3"),
+        "{}",
+        f.message
+    );
+    assert_eq!(f.line_col(), (5, 31));
+    assert_eq!(f.related.len(), 2);
+    assert!(r.input_error());
+}

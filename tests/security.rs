@@ -166,7 +166,10 @@ fn configuration_stops_at_the_project_root_and_is_named() {
         assert!(err.contains("outside the project root"), "{args:?}: {err}");
         assert!(out.is_empty(), "{args:?}: {out}");
     }
-    write(&proj.join("armature.yaml"), "severity:\n  no-such-rule: off\n");
+    write(
+        &proj.join("armature.yaml"),
+        "severity:\n  no-such-rule: off\n",
+    );
     let (code, _, err) = run(&proj, &["facts", "a.drive"]);
     assert_eq!(code, 2, "{err}");
     assert!(err.contains("armature.yaml:2:"), "{err}");
@@ -429,8 +432,8 @@ fn sarif_uris_are_percent_encoded() {
     assert!(uris.iter().any(|u| u == want), "{uris:?}");
     for u in &uris {
         assert!(
-            u.bytes().all(|b| b.is_ascii_graphic()
-                && !matches!(b, b'#' | b'?' | b' ' | b'\\')),
+            u.bytes()
+                .all(|b| b.is_ascii_graphic() && !matches!(b, b'#' | b'?' | b' ' | b'\\')),
             "{u}"
         );
     }

@@ -343,17 +343,27 @@ fn load_part(doc: &YamlDoc, name: &str, body: &Value) -> Result<LibPart, Vec<Fin
             continue;
         };
         let vspan = doc.value_span(&kpath);
-        let Some(text) = yaml::scalar_text(v) else {
-            errors.push(Finding::input(
-                CODE,
-                file,
-                vspan,
-                format!(
-                    "`{key}` must be a single value, found {}",
-                    yaml::describe(v)
-                ),
-            ));
-            continue;
+        let text = match yaml::quantity_text(doc, &kpath, v) {
+            Ok(Some(t)) => t,
+            Ok(None) => {
+                errors.push(Finding::input(
+                    CODE,
+                    file,
+                    vspan,
+                    format!(
+                        "`{key}` must be a single value, found {}",
+                        yaml::describe(v)
+                    ),
+                ));
+                continue;
+            }
+            Err(msg) => {
+                errors.push(
+                    Finding::input(CODE, file, vspan, format!("`{key}`: {msg}"))
+                        .label("not a decimal number"),
+                );
+                continue;
+            }
         };
         match super::interpret_key(def.name, def.ty, &text) {
             Ok(value) => params.push(Param {

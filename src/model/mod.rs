@@ -41,10 +41,22 @@ pub struct Param {
     pub span: Span,
 }
 
-/// Keys whose value must be above zero.
+/// Keys whose value must be above zero besides the ratings.
 const POSITIVE: &[&str] = &[
     "r", "l", "rds_on", "rth_ja", "hfe_min", "io_v", "r_out", "vz", "v_clamp",
 ];
+
+/// Ratings: limits a part is rated for, written as magnitudes (a p-channel
+/// part's `vds_max` is `30V`, not `-30V`); zero or below is never a rating.
+/// Every `*_max` key except the junction temperature (a temperature, held
+/// above absolute zero instead), and the ratings named otherwise.
+pub fn is_rating(key: &str) -> bool {
+    (key.ends_with("_max") && key != "tj_max")
+        || matches!(
+            key,
+            "vrrm" | "if_avg" | "ifsm" | "i_sat" | "i_stall" | "i_rated" | "v_rated"
+        )
+}
 
 /// Read a value's text for a key of a given type.
 pub fn interpret(ty: KeyType, text: &str) -> Result<ParamValue, String> {
@@ -63,6 +75,12 @@ pub fn interpret_key(key: &str, ty: KeyType, text: &str) -> Result<ParamValue, S
             );
             if !signed && q.value < 0.0 {
                 return Err(format!("{} must not be negative", d.article_name()));
+            }
+            if is_rating(key) && q.value <= 0.0 {
+                return Err(format!(
+                    "a rating must be above zero (a magnitude, whatever the polarity), found {}",
+                    units::format_si(q.value, d)
+                ));
             }
             if POSITIVE.contains(&key) && q.value <= 0.0 {
                 return Err(format!("`{key}` must be above zero"));
@@ -312,6 +330,15 @@ impl Drafter<'_> {
         self.libs.iter().find_map(|l| l.parts.get(name).cloned())
     }
 
+    /// The first two libraries' definitions of `name` when more than one
+    /// loaded library defines it: which one was meant cannot be known.
+    fn lib_part_twice(&self, name: &str) -> Option<(Arc<LibPart>, Arc<LibPart>)> {
+        let mut found = self.libs.iter().filter_map(|l| l.parts.get(name));
+        let first = found.next()?;
+        let second = found.next()?;
+        Some((first.clone(), second.clone()))
+    }
+
     /// Everything about a part line that needs no other line: kind,
     /// pins, values, library part. Pins come back with `net` holding the
     /// index of their entry in `st.pins`; `Elab::commit` turns it into the
@@ -469,8 +496,28 @@ impl Drafter<'_> {
                 ),
             }
         }
-        // parameters
+        // parameters; a key given twice is an error (which one was meant
+        // cannot be known), the primary value counting as its key
+        let mut seen: Vec<(&str, Span)> = Vec::new();
+        if let (Some(v), Some(key)) = (&st.value, kind.primary_key()) {
+            seen.push((key, v.span));
+        }
         for p in &st.params {
+            let key_text: &str = p.key.node;
+            if let Some(&(_, first)) = seen.iter().find(|(k, _)| *k == key_text) {
+                let f = Finding::input(
+                    DUPLICATE_KEY,
+                    self.file,
+                    p.key.span,
+                    format!("`{key_text}` is given twice for `{}`", part.reference),
+                )
+                .label("given again here")
+                .related_in(self.file, first, "first given here".to_string())
+                .help("keep one of the two values");
+                self.errors.push(f);
+                continue;
+            }
+            seen.push((key_text, p.key.span));
             if p.key.node == "part" {
                 let name = match &p.value.node {
                     Value::Atom(s) => s.to_string(),
@@ -486,6 +533,31 @@ impl Drafter<'_> {
                         continue;
                     }
                 };
+                if let Some((a, b)) = self.lib_part_twice(&name) {
+                    let line = |lp: &LibPart| {
+                        format!(
+                            "{}:{}",
+                            lp.file.name,
+                            lp.file.line_index(lp.span.start()) + 1
+                        )
+                    };
+                    let f = Finding::input(
+                        "library-error",
+                        self.file,
+                        p.value.span,
+                        format!(
+                            "`{name}` is defined in two libraries ({} and {})",
+                            line(&a),
+                            line(&b)
+                        ),
+                    )
+                    .label("which definition is meant?")
+                    .related_in(&a.file, a.span, format!("`{name}` is defined here"))
+                    .related_in(&b.file, b.span, "and again here".to_string())
+                    .help("keep one definition, or rename one of the parts");
+                    self.errors.push(f);
+                    continue;
+                }
                 match self.find_lib_part(&name) {
                     Some(lp) => {
                         if lp.kind != kind {
@@ -630,6 +702,7 @@ struct Elab<'a> {
 
 const UNKNOWN_KEY: &str = "unknown-key";
 const INVALID_VALUE: &str = "invalid-value";
+const DUPLICATE_KEY: &str = "duplicate-key";
 
 impl<'a> Elab<'a> {
     /// Size the big tables up front. Growing a vector of a million

@@ -54,7 +54,10 @@ pub fn uri(name: &str) -> String {
 fn percent_encode(path: &str, colon: bool) -> String {
     let mut out = String::with_capacity(path.len());
     for &b in path.as_bytes() {
-        if b.is_ascii_alphanumeric() || matches!(b, b'-' | b'.' | b'_' | b'~' | b'/') || (colon && b == b':') {
+        if b.is_ascii_alphanumeric()
+            || matches!(b, b'-' | b'.' | b'_' | b'~' | b'/')
+            || (colon && b == b':')
+        {
             out.push(b as char);
         } else {
             out.push_str(&format!("%{b:02X}"));
