@@ -443,10 +443,8 @@ fn collect_uris(v: &serde_json::Value, out: &mut Vec<String>) {
     match v {
         serde_json::Value::Object(m) => {
             for (k, x) in m {
-                if k == "uri" {
-                    if let Some(s) = x.as_str() {
-                        out.push(s.to_string());
-                    }
+                if let (true, Some(s)) = (k == "uri", x.as_str()) {
+                    out.push(s.to_string());
                 }
                 collect_uris(x, out);
             }
