@@ -285,27 +285,14 @@ pub fn check_path(path: &Path, opts: &Options, cache: &LibraryCache) -> FileResu
 pub const MAX_FILE_BYTES: u64 = 256 << 20;
 
 pub fn read_netlist(path: &Path, shown: &str) -> Result<Arc<SourceFile>, Finding> {
-    if let Ok(m) = std::fs::metadata(path)
-        && m.is_file()
-        && m.len() > MAX_FILE_BYTES
-    {
-        return Err(Finding::input(
-            "file-error",
-            &SourceFile::new(shown, path, String::new()),
-            Span::new(0, 0),
-            format!(
-                "`{shown}` is {} bytes; the limit is {} bytes",
-                m.len(),
-                MAX_FILE_BYTES
-            ),
-        ));
-    }
     model::library::read_text_limited(path, shown, MAX_FILE_BYTES)
 }
 
 /// A path as shown to users: relative to the current folder when inside it.
 pub fn shown_path(path: &Path) -> String {
-    let cwd = std::env::current_dir().ok();
+    // the process never changes its folder: ask the system once
+    static CWD: std::sync::OnceLock<Option<PathBuf>> = std::sync::OnceLock::new();
+    let cwd = CWD.get_or_init(|| std::env::current_dir().ok());
     let clean = |p: &Path| -> PathBuf {
         let mut out = PathBuf::new();
         for c in p.components() {

@@ -88,6 +88,7 @@ impl Root {
 pub enum ReadError {
     Io(std::io::Error),
     NotAFile,
+    IsDir,
     TooLarge(u64),
 }
 
@@ -95,7 +96,12 @@ pub enum ReadError {
 /// `/dev/zero` is refused before it is read, and no more than `limit + 1`
 /// bytes are ever read.
 pub fn read_bounded(path: &Path, limit: u64) -> Result<Vec<u8>, ReadError> {
+    // one stat decides everything before the file is opened (opening a
+    // FIFO would block)
     let meta = std::fs::metadata(path).map_err(ReadError::Io)?;
+    if meta.is_dir() {
+        return Err(ReadError::IsDir);
+    }
     if !meta.is_file() {
         return Err(ReadError::NotAFile);
     }

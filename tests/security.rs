@@ -453,3 +453,69 @@ fn collect_uris(v: &serde_json::Value, out: &mut Vec<String>) {
         _ => {}
     }
 }
+
+#[cfg(unix)]
+#[test]
+fn a_symlinked_netlist_leading_out_of_the_project_is_not_read() {
+    let (parent, proj) = project("netlink");
+    write(&parent.join("secret.txt"), "TOKEN=s3cr3t-value here\n");
+    write(
+        &proj.join("sub/ok.drive"),
+        "rail V 5V\nground GND\nresistor R1 (V, GND) 10k\n",
+    );
+    let _ = std::os::unix::fs::symlink(parent.join("secret.txt"), proj.join("leak.drive"));
+    let _ = std::os::unix::fs::symlink("sub/ok.drive", proj.join("inside.drive"));
+    for args in [
+        &["check", "."][..],
+        &["check", "leak.drive"][..],
+        &["check", ".", "--format", "json"][..],
+        &["facts", "leak.drive"][..],
+    ] {
+        let (code, out, err) = run(&proj, args);
+        assert_eq!(code, 2, "{args:?}: {out}{err}");
+        assert!(
+            !out.contains("s3cr3t") && !err.contains("s3cr3t"),
+            "{args:?}: {out}{err}"
+        );
+        assert!(
+            (out.contains("outside the project root") || err.contains("outside the project root")),
+            "{args:?}: {out}{err}"
+        );
+    }
+    // a link that stays inside is read as usual
+    let (code, out, err) = run(&proj, &["check", "inside.drive"]);
+    assert_eq!(code, 0, "{out}{err}");
+    // and the user may trust the link
+    let (code, out, _) = run(&proj, &["check", "leak.drive", "--allow-outside-root"]);
+    assert_eq!(code, 2);
+    assert!(out.contains("parse-error"), "{out}");
+}
+
+#[test]
+fn the_configuration_line_stays_a_line() {
+    let (_, proj) = project("cfgline");
+    for i in 0..20 {
+        write(
+            &proj.join(format!("d{i:02}/armature.yaml")),
+            "severity:\n  bulk-cap-missing: off\n",
+        );
+        write(
+            &proj.join(format!("d{i:02}/a.drive")),
+            "rail V 5V\nground GND\nresistor R1 (V, GND) 10k\n",
+        );
+    }
+    let (code, out, _) = run(&proj, &["check", "."]);
+    assert_eq!(code, 0, "{out}");
+    let line = out
+        .lines()
+        .find(|l| l.starts_with("configuration:"))
+        .unwrap_or("");
+    assert!(
+        line.contains("d07/armature.yaml") && !line.contains("d08/"),
+        "{line}"
+    );
+    assert!(line.ends_with("and 12 more"), "{line}");
+    let (_, out, _) = run(&proj, &["check", ".", "--format", "json"]);
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap_or_default();
+    assert_eq!(v["config"].as_array().map(Vec::len), Some(20), "{out}");
+}

@@ -101,17 +101,24 @@ pub struct CommonArgs {
     /// Read paths outside the project root too (for trusted input only)
     #[arg(long = "allow-outside-root")]
     pub allow_outside_root: bool,
+    /// The root, found once per run (every folder of a walk asks for it).
+    #[arg(skip)]
+    root_found: std::sync::OnceLock<crate::trust::Root>,
 }
 
 impl CommonArgs {
     /// The project root in force.
     pub fn root(&self) -> crate::trust::Root {
-        let mut r = match &self.root {
-            Some(d) => crate::trust::Root::at(d),
-            None => crate::trust::Root::find(&std::env::current_dir().unwrap_or_default()),
-        };
-        r.allow_outside = self.allow_outside_root;
-        r
+        self.root_found
+            .get_or_init(|| {
+                let mut r = match &self.root {
+                    Some(d) => crate::trust::Root::at(d),
+                    None => crate::trust::Root::find(&std::env::current_dir().unwrap_or_default()),
+                };
+                r.allow_outside = self.allow_outside_root;
+                r
+            })
+            .clone()
     }
 }
 
@@ -218,7 +225,10 @@ pub fn is_netlist(p: &Path) -> bool {
 /// Every netlist below a folder, sorted. Symlinked folders are not
 /// followed, and a folder reached twice (bind mounts, hard links) is read
 /// once: the walk ends on any tree.
-fn collect(path: &Path, out: &mut Vec<PathBuf>) -> std::io::Result<()> {
+/// Every netlist below a folder, sorted, into `out`; the ones that are
+/// symlinks (which may point anywhere) into `linked` instead, for the
+/// root check.
+fn collect(path: &Path, out: &mut Vec<PathBuf>, linked: &mut Vec<PathBuf>) -> std::io::Result<()> {
     let mut seen: std::collections::HashSet<(u64, u64)> = std::collections::HashSet::new();
     let mut stack = vec![path.to_path_buf()];
     let mut first = true;
@@ -238,18 +248,27 @@ fn collect(path: &Path, out: &mut Vec<PathBuf>) -> std::io::Result<()> {
             Err(_) => continue,
         };
         first = false;
-        let mut entries: Vec<PathBuf> = rd.filter_map(|e| e.ok().map(|e| e.path())).collect();
+        // the entry's own type (from the folder listing, no stat; a
+        // symlinked folder is not a folder here, so it is not followed)
+        let mut entries: Vec<(PathBuf, bool, bool)> = rd
+            .filter_map(|e| {
+                let e = e.ok()?;
+                let t = e.file_type().ok()?;
+                Some((e.path(), t.is_dir(), t.is_symlink()))
+            })
+            .collect();
         entries.sort();
         // folders are walked in order: pushed last-first
         let mut dirs = Vec::new();
-        for p in entries {
-            let Ok(meta) = std::fs::symlink_metadata(&p) else {
-                continue;
-            };
-            if meta.is_dir() {
+        for (p, is_dir, is_link) in entries {
+            if is_dir {
                 dirs.push(p);
             } else if is_netlist(&p) {
-                out.push(p);
+                if is_link {
+                    linked.push(p);
+                } else {
+                    out.push(p);
+                }
             }
         }
         stack.extend(dirs.into_iter().rev());
@@ -347,17 +366,33 @@ fn profile_or_report(file: &Path, common: &CommonArgs) -> Option<Options> {
     None
 }
 
+/// A netlist named on the command line that is a symlink must resolve
+/// inside the root (see `check`).
+fn linked_inside_root(path: &Path, common: &CommonArgs) -> Result<(), String> {
+    if std::fs::symlink_metadata(path).is_ok_and(|m| m.file_type().is_symlink()) {
+        common.root().check(path)
+    } else {
+        Ok(())
+    }
+}
+
 fn config_for(file: &Path, common: &CommonArgs) -> Option<PathBuf> {
+    config_in(file.parent().unwrap_or(Path::new("")), common)
+}
+
+/// The configuration in force for the files of one folder.
+fn config_in(dir: &Path, common: &CommonArgs) -> Option<PathBuf> {
     if common.no_config {
         return None;
     }
     if let Some(c) = &common.config {
         return Some(c.clone());
     }
-    let dir = file
-        .parent()
-        .filter(|p| !p.as_os_str().is_empty())
-        .unwrap_or(Path::new("."));
+    let dir = if dir.as_os_str().is_empty() {
+        Path::new(".")
+    } else {
+        dir
+    };
     crate::config::discover(dir, Some(&common.root()))
 }
 
@@ -368,24 +403,43 @@ fn check(a: CheckArgs) -> i32 {
         a.paths.clone()
     };
     let mut files = Vec::new();
+    let mut linked = Vec::new();
     let mut missing: Vec<FileResult> = Vec::new();
     for p in &paths {
         if p.is_dir() {
-            let before = files.len();
-            if let Err(e) = collect(p, &mut files) {
+            let before = files.len() + linked.len();
+            if let Err(e) = collect(p, &mut files, &mut linked) {
                 missing.push(error_result(p, &format!("cannot read folder: {e}")));
-            } else if files.len() == before {
+            } else if files.len() + linked.len() == before {
                 missing.push(error_result(
                     p,
                     "no netlist (`*.drive`) in this folder or below it: nothing was checked",
                 ));
             }
         } else if p.exists() {
-            files.push(p.clone());
+            if std::fs::symlink_metadata(p).is_ok_and(|m| m.file_type().is_symlink()) {
+                linked.push(p.clone());
+            } else {
+                files.push(p.clone());
+            }
         } else {
             missing.push(error_result(p, "no such file or folder"));
         }
     }
+    // a netlist that is a symlink is read only when it resolves inside
+    // the root: a link in a pull request must not make the tool quote a
+    // file from elsewhere on the machine
+    let root = a.common.root();
+    for p in linked {
+        match root.check(&p) {
+            Ok(()) => files.push(p),
+            Err(why) => missing.push(error_result(
+                &p,
+                &format!("the netlist is not read: {why}; pass `--allow-outside-root` to trust it"),
+            )),
+        }
+    }
+    files.sort();
     let cache = LibraryCache::default();
     // group the files by the configuration in force for each
     let mut profiles: Vec<(Option<PathBuf>, Profile)> = Vec::new();
@@ -395,6 +449,16 @@ fn check(a: CheckArgs) -> i32 {
         std::collections::HashMap::new();
     let mut by_dir: std::collections::HashMap<PathBuf, Option<PathBuf>> =
         std::collections::HashMap::new();
+    let mut configs: Vec<Option<PathBuf>> = Vec::new();
+    // one discovery per folder, the folders in parallel
+    let mut unique: std::collections::HashSet<&Path> = std::collections::HashSet::new();
+    let dirs: Vec<&Path> = files
+        .iter()
+        .map(|f| f.parent().unwrap_or(Path::new("")))
+        .filter(|d| unique.insert(d))
+        .collect();
+    let found: Vec<Option<PathBuf>> = dirs.par_iter().map(|d| config_in(d, &a.common)).collect();
+    by_dir.extend(dirs.iter().map(|d| d.to_path_buf()).zip(found));
     for f in &files {
         let dir = f.parent().map(Path::to_path_buf).unwrap_or_default();
         let cfg = by_dir
@@ -404,14 +468,19 @@ fn check(a: CheckArgs) -> i32 {
         let idx = match by_config.get(&cfg) {
             Some(&i) => i,
             None => {
-                let p = profile(cfg.as_deref(), &a.common);
-                profiles.push((cfg.clone(), p));
-                by_config.insert(cfg, profiles.len() - 1);
-                profiles.len() - 1
+                configs.push(cfg.clone());
+                by_config.insert(cfg, configs.len() - 1);
+                configs.len() - 1
             }
         };
         assigned.push((f.clone(), idx));
     }
+    // the configurations load in parallel (a tree may hold thousands)
+    let loaded: Vec<Profile> = configs
+        .par_iter()
+        .map(|c| profile(c.as_deref(), &a.common))
+        .collect();
+    profiles.extend(configs.into_iter().zip(loaded));
     if files.is_empty() && a.common.config.is_some() {
         profiles.push((
             a.common.config.clone(),
@@ -485,13 +554,21 @@ use crate::trust::escape as esc;
 
 fn configs_line(results: &[FileResult]) -> String {
     let v = configs(results);
+    // a line to read, not a listing: JSON and SARIF carry every one
+    const SHOWN: usize = 8;
     if v.is_empty() {
         "none (defaults)".to_string()
     } else {
-        v.iter()
+        let mut line = v
+            .iter()
+            .take(SHOWN)
             .map(|c| crate::trust::escape(c).into_owned())
             .collect::<Vec<_>>()
-            .join(", ")
+            .join(", ");
+        if v.len() > SHOWN {
+            line.push_str(&format!(" and {} more", v.len() - SHOWN));
+        }
+        line
     }
 }
 
@@ -615,7 +692,7 @@ parts' data sheets and licensed practice.";
 
 fn explain(id: &str, common: &CommonArgs) -> i32 {
     if id.contains('/') {
-        let p = profile(config_for(Path::new("./x"), common).as_deref(), common);
+        let p = profile(config_in(Path::new("."), common).as_deref(), common);
         if let Some(r) = p.opts.team.iter().find(|r| r.id == id) {
             let (l, _) = r.file.line_col(r.span.start());
             println!(
@@ -695,7 +772,7 @@ fn rules(common: &CommonArgs) -> i32 {
             r.meta.summary
         );
     }
-    let p = profile(config_for(Path::new("./x"), common).as_deref(), common);
+    let p = profile(config_in(Path::new("."), common).as_deref(), common);
     for r in &p.opts.team {
         println!(
             "{:<28} {:<8} {} ({})",
@@ -724,6 +801,10 @@ fn facts(
     };
     let cache = LibraryCache::default();
     let shown = crate::shown_path(path);
+    if let Err(why) = linked_inside_root(path, common) {
+        eprintln!("error: `{}`: the netlist is not read: {why}", esc(&shown));
+        return 2;
+    }
     let file = match crate::read_netlist(path, &shown) {
         Ok(f) => f,
         Err(f) => {
@@ -797,6 +878,10 @@ fn export_spice(
     let cache = LibraryCache::default();
     let shown = crate::shown_path(path);
     let r = report::human::Renderer::new(false);
+    if let Err(why) = linked_inside_root(path, common) {
+        eprintln!("error: `{}`: the netlist is not read: {why}", esc(&shown));
+        return 2;
+    }
     let file = match crate::read_netlist(path, &shown) {
         Ok(f) => f,
         Err(f) => {

@@ -45,17 +45,14 @@ pub fn read_text(path: &Path, shown: &str) -> Result<Arc<SourceFile>, Finding> {
 pub fn read_text_limited(path: &Path, shown: &str, limit: u64) -> Result<Arc<SourceFile>, Finding> {
     let empty = || SourceFile::new(shown, path, String::new());
     let err = |msg: String| Finding::input("file-error", &empty(), Span::new(0, 0), msg);
-    if path.is_dir() {
-        return Err(err(format!("`{shown}` is a folder, not a file")));
-    }
     let bytes = crate::trust::read_bounded(path, limit).map_err(|e| match e {
+        crate::trust::ReadError::IsDir => err(format!("`{shown}` is a folder, not a file")),
         crate::trust::ReadError::Io(e) => err(format!("cannot read `{shown}`: {}", io_reason(&e))),
         crate::trust::ReadError::NotAFile => err(format!(
             "`{shown}` is not a regular file (a device, a pipe or a socket): it is not read"
         )),
         crate::trust::ReadError::TooLarge(n) => err(format!(
-            "`{shown}` is {} bytes or more; the limit is {limit} bytes",
-            n
+            "`{shown}` is {n} bytes or more; the limit is {limit} bytes"
         )),
     })?;
     text_from_bytes(bytes, path, shown)
