@@ -139,6 +139,15 @@ pub fn build(
     opts: &Options,
     cache: &LibraryCache,
 ) -> Result<Built, Vec<Finding>> {
+    build_limited(file, opts, cache, model::MAX_PARTS)
+}
+
+fn build_limited(
+    file: &Arc<SourceFile>,
+    opts: &Options,
+    cache: &LibraryCache,
+    max_parts: usize,
+) -> Result<Built, Vec<Finding>> {
     // The file is read in two passes over its lines: first the lines that
     // every part depends on (rails, grounds, libraries), then the rest in
     // blocks, each parsed and elaborated and then dropped, so that the
@@ -158,13 +167,21 @@ pub fn build(
     let (header, mut header_errors) = syntax::parse_lines(file, header_lines);
     let mut errors = Vec::new();
     let libs = load_libraries(file, &header, opts, cache, &mut errors);
-    let (circuit, mut elab_errors) = if body_lines.len() - n_drives > model::MAX_PARTS {
-        // perhaps over the part limit: the whole-tree path reports it at
-        // the first part beyond it (and parses the header lines again)
+    // the part limit is held while reading: the line of the first part
+    // beyond it is found from the lines' first words, before anything of
+    // the body is parsed or elaborated
+    let over = if body_lines.len() - n_drives > max_parts {
+        body_lines
+            .iter()
+            .filter(|(_, t)| syntax::Lines::may_be_part(t))
+            .nth(max_parts)
+            .map(|&(base, t)| Span::new(base, base + t.len()))
+    } else {
+        None
+    };
+    let (circuit, mut elab_errors) = if let Some(span) = over {
         drop(body_lines);
-        let (ast, mut e) = syntax::parse(file);
-        errors.append(&mut e);
-        model::elaborate(file, &ast, &libs)
+        model::over_limit(file, span, max_parts)
     } else {
         errors.append(&mut header_errors);
         let mut el = model::Elaborator::new(file, &libs, body_lines.len() - n_drives, n_drives);
@@ -344,4 +361,39 @@ pub fn exit_code<'a>(results: impl IntoIterator<Item = &'a FileResult>, fail_on:
         }
     }
     code
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The part limit is found from the lines, without parsing the body:
+    /// the error points at the first part beyond it, and comments,
+    /// `design` and `drive` lines do not count.
+    #[test]
+    fn the_part_limit_is_held_while_reading() {
+        let text = "design \"limit\"\nground GND\n# a comment\nresistor R1 (A, GND) 1k\n\
+                    drive U1.PA0 static\nresistor R2 (A, GND) 1k\n  # another\n\
+                    resistor R3 (A, GND) 1k\nresistor R4 (A, GND) 1k\n";
+        let f = SourceFile::from_str("t.drive", text);
+        let cache = LibraryCache::default();
+        let Err(errs) = build_limited(&f, &Options::default(), &cache, 2) else {
+            panic!("over the limit, accepted");
+        };
+        let e = errs.iter().find(|e| e.rule == "limit-exceeded");
+        let Some(e) = e else {
+            panic!("{:?}", errs.iter().map(|e| &e.message).collect::<Vec<_>>())
+        };
+        assert_eq!(e.line_col(), (8, 1));
+        // at the limit: elaborated (the drive names no controller, which
+        // is the only error)
+        match build_limited(&f, &Options::default(), &cache, 4) {
+            Ok(_) => panic!("the drive of no controller was accepted"),
+            Err(errs) => assert!(
+                errs.iter().all(|e| e.rule != "limit-exceeded") && !errs.is_empty(),
+                "{:?}",
+                errs.iter().map(|e| &e.message).collect::<Vec<_>>()
+            ),
+        }
+    }
 }

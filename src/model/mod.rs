@@ -1107,7 +1107,7 @@ fn elaborate_limited(
 }
 
 /// The one error of a netlist with too many parts; nothing is elaborated.
-fn over_limit(file: &Arc<SourceFile>, span: Span, max_parts: usize) -> (Circuit, Vec<Finding>) {
+pub fn over_limit(file: &Arc<SourceFile>, span: Span, max_parts: usize) -> (Circuit, Vec<Finding>) {
     let mut e = Elab::new(file, 0, 0);
     e.err(
         "limit-exceeded",

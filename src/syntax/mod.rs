@@ -172,6 +172,23 @@ impl<'f> Lines<'f> {
             .map(|&(o, n)| (o, self.joined.get(o..o + n).unwrap_or("")))
     }
 
+    /// Whether a body line can be a part statement: not a comment and
+    /// not `design`, `ambient` or `drive` (the count of such lines bounds the
+    /// parts from above, for the part limit).
+    pub fn may_be_part(text: &str) -> bool {
+        let t = text.trim_start_matches([' ', '\t', '\r', '\u{FEFF}']);
+        !(t.is_empty()
+            || t.starts_with('#')
+            || matches!(Self::first_word(t), "design" | "ambient" | "drive"))
+    }
+
+    fn first_word(t: &str) -> &str {
+        let end = t
+            .find(|c: char| !(c.is_ascii_alphanumeric() || "_-+/".contains(c)))
+            .unwrap_or(t.len());
+        t.get(..end).unwrap_or("")
+    }
+
     /// The class of a line's text: its first word, with the grammar's
     /// word boundary (`railing` is a part kind, not `rail`).
     pub fn class(text: &str) -> LineClass {
