@@ -3,6 +3,7 @@
 //! the analysis and the parts' ratings.
 
 pub mod expr;
+pub mod glob;
 
 use crate::analysis::Analysis;
 use crate::finding::{Finding, Severity};
@@ -123,6 +124,8 @@ pub struct TeamRule {
     pub severity: Severity,
     pub kinds: Vec<Kind>,
     pub parts: Option<String>,
+    /// `parts`, compiled.
+    pub parts_glob: Option<glob::Glob>,
     pub when: Option<(Expr, String)>,
     pub require: (Expr, String),
     pub message: Vec<Piece>,
@@ -373,6 +376,7 @@ pub fn load(file: &Arc<SourceFile>) -> Result<Vec<TeamRule>, Vec<Finding>> {
                 id,
                 severity,
                 kinds,
+                parts_glob: field("parts").map(|g| glob::Glob::new(&g)),
                 parts: field("parts"),
                 when,
                 require,
@@ -421,33 +425,6 @@ fn parse_template(text: &str, scope: &dyn Scope) -> Result<Vec<Piece>, String> {
         out.push(Piece::Lit(rest.to_string()));
     }
     Ok(out)
-}
-
-/// `*` and `?` glob match.
-pub fn glob(pat: &str, s: &str) -> bool {
-    let p: Vec<char> = pat.chars().collect();
-    let t: Vec<char> = s.chars().collect();
-    let (mut pi, mut ti, mut star, mut mark) = (0usize, 0usize, None, 0usize);
-    while ti < t.len() {
-        if pi < p.len() && (p[pi] == '?' || p[pi] == t[ti]) {
-            pi += 1;
-            ti += 1;
-        } else if pi < p.len() && p[pi] == '*' {
-            star = Some(pi);
-            mark = ti;
-            pi += 1;
-        } else if let Some(sp) = star {
-            pi = sp + 1;
-            mark += 1;
-            ti = mark;
-        } else {
-            return false;
-        }
-    }
-    while pi < p.len() && p[pi] == '*' {
-        pi += 1;
-    }
-    pi == p.len()
 }
 
 struct PartEnv<'a> {
@@ -533,14 +510,18 @@ fn run_rule(r: &TeamRule, c: &Circuit, a: &Analysis, s: &Settings) -> Vec<Findin
     let Some(sev) = s.severity_of(&r.id, r.severity) else {
         return out;
     };
+    let mut matched: std::collections::HashMap<&str, bool> = std::collections::HashMap::new();
     for (pid, p) in c.parts.iter().enumerate() {
         if !r.kinds.contains(&p.kind) {
             continue;
         }
-        if let Some(g) = &r.parts
-            && !glob(g, p.part_name.as_deref().unwrap_or(""))
-        {
-            continue;
+        if let Some(g) = &r.parts_glob {
+            // boards repeat part names: each distinct name is matched once
+            let name = p.part_name.as_deref().unwrap_or("");
+            let hit = *matched.entry(name).or_insert_with(|| g.matches(name));
+            if !hit {
+                continue;
+            }
         }
         let env = PartEnv { a, s, pid, p };
         let line = crate::checks::common::line_span_of(c, p);
