@@ -184,3 +184,28 @@ fn docs_list_every_rule() {
         );
     }
 }
+
+/// A message names at most six parts of a long path and counts the rest;
+/// the related locations are capped the same way, and JSON's `parts`
+/// still lists every one, once.
+#[test]
+fn long_part_lists_are_bounded_in_messages() {
+    let (fired, res) = rules_fired(&fixture_dir("clamp-overvoltage").join("zener-chain.drive"));
+    assert!(fired.iter().any(|x| x == "clamp-overvoltage"), "{fired:?}");
+    let Some(f) = res.findings.iter().find(|f| f.rule == "clamp-overvoltage") else {
+        panic!("no finding")
+    };
+    assert!(
+        f.message
+            .contains("`D2`, `Z0`, `Z1`, `Z2`, `Z3`, `Z4` and 5 more"),
+        "{}",
+        f.message
+    );
+    assert!(!f.message.contains("`Z5`"), "{}", f.message);
+    assert!(f.related.len() <= 7, "{}", f.related.len());
+    assert_eq!(f.parts.len(), 12, "{:?}", f.parts);
+    let mut unique = f.parts.clone();
+    unique.sort();
+    unique.dedup();
+    assert_eq!(unique.len(), f.parts.len());
+}

@@ -61,6 +61,42 @@ pub fn with_part(mut f: Finding, ctx: &Ctx, pid: PartId, label: String) -> Findi
     f
 }
 
+/// How many parts a message names before it counts the rest, and how
+/// many related locations a finding shows: a path of a thousand parts
+/// is a sentence, not a page (JSON's `parts` still lists every one).
+pub const MAX_LISTED: usize = 6;
+
+/// "`D1`, `D2` and `D3`" style lists: the first `MAX_LISTED` references
+/// quoted, then "and N more".
+pub fn listed(ctx: &Ctx, ids: &[PartId]) -> String {
+    let mut s = ids
+        .iter()
+        .take(MAX_LISTED)
+        .map(|&q| format!("`{}`", ctx.circuit.part(q).reference))
+        .collect::<Vec<_>>()
+        .join(", ");
+    if ids.len() > MAX_LISTED {
+        s.push_str(&format!(" and {} more", ids.len() - MAX_LISTED));
+    }
+    s
+}
+
+/// `with_part` for many parts at once: each named once in `parts`, the
+/// first `MAX_LISTED` also shown as related locations.
+pub fn with_parts(mut f: Finding, ctx: &Ctx, ids: &[PartId], label: &str) -> Finding {
+    let mut named: std::collections::HashSet<String> = f.parts.iter().cloned().collect();
+    for (i, &q) in ids.iter().enumerate() {
+        let p = ctx.circuit.part(q);
+        if i < MAX_LISTED {
+            f = f.related(line_span(ctx, p), label.to_string());
+        }
+        if named.insert(p.reference.clone()) {
+            f.parts.push(p.reference.clone());
+        }
+    }
+    f
+}
+
 pub fn net_name(ctx: &Ctx, pid: PartId, pin: &str) -> String {
     ctx.circuit
         .pin_net_name(pid, pin)

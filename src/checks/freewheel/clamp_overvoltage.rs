@@ -92,12 +92,8 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
         .map(|k| {
             let tt = k.turnoff;
             let p = ctx.circuit.part(tt.switch);
-            let through = tt
-                .path
-                .iter()
-                .map(|(q, _)| format!("`{}`", ref_of(ctx, *q)))
-                .collect::<Vec<_>>()
-                .join(", ");
+            let ids: Vec<_> = tt.path.iter().map(|(q, _)| *q).collect();
+            let through = crate::checks::common::listed(ctx, &ids);
             let aval = if tt.avalanche {
                 format!(": it breaks down before the clamp takes the current ({} in its own avalanche per turn-off)", crate::units::format_si(tt.e_aval, crate::units::Dimension::Energy))
             } else {
@@ -117,9 +113,7 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
                     v(k.limit)
                 ),
             );
-            for (q, _) in &tt.path {
-                f = with_part(f, ctx, *q, "on the freewheel path".into());
-            }
+            f = crate::checks::common::with_parts(f, ctx, &ids, "on the freewheel path");
             f.help(format!(
                 "use a switch rated at least {}, or lower the clamp so that the peak stays below {}",
                 v(tt.v_peak / d.voltage),

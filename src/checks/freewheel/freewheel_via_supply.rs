@@ -80,12 +80,8 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
         .filter_map(|(tt, x, e)| {
             let load = tt.load?;
             let e = ctx.analysis.facts.value(load, "e_returned").unwrap_or(e);
-            let through = tt
-                .path
-                .iter()
-                .map(|(q, _)| format!("`{}`", ref_of(ctx, *q)))
-                .collect::<Vec<_>>()
-                .join(", ");
+            let ids: Vec<_> = tt.path.iter().map(|(q, _)| *q).collect();
+            let through = crate::checks::common::listed(ctx, &ids);
             let mut f = on_part(
                 &META,
                 ctx,
@@ -105,9 +101,7 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
                     c.net(x).name
                 ),
             );
-            for (q, _) in &tt.path {
-                f = with_part(f, ctx, *q, "on the freewheel path".into());
-            }
+            f = crate::checks::common::with_parts(f, ctx, &ids, "on the freewheel path");
             f = f.related(c.net(x).span, "this rail");
             Some(f.help(format!(
                 "add a bulk capacitor from `{}` to ground near the switches",

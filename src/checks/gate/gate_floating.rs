@@ -75,12 +75,7 @@ fn driver_inputs(ctx: &Ctx) -> Vec<Finding> {
         .map(|fi| {
             let p = c.part(fi.driver);
             let net = net_name(ctx, fi.driver, fi.pin);
-            let behind = fi
-                .switches
-                .iter()
-                .map(|&q| format!("`{}`", ref_of(ctx, q)))
-                .collect::<Vec<_>>()
-                .join(", ");
+            let behind = crate::checks::common::listed(ctx, &fi.switches);
             let mut f = crate::checks::finding(
                 &META,
                 ctx,
@@ -94,9 +89,7 @@ fn driver_inputs(ctx: &Ctx) -> Vec<Finding> {
             )
             .label(format!("`{net}` has no path to a defined level"))
             .parts([p.reference.clone()]);
-            for &q in &fi.switches {
-                f = with_part(f, ctx, q, "driven by it".into());
-            }
+            f = crate::checks::common::with_parts(f, ctx, &fi.switches, "driven by it");
             let pull = if matches!(p.word("invert"), Some("true" | "yes" | "1")) { "pull-up" } else { "pull-down" };
             let gnd = net_name(ctx, fi.driver, "gnd");
             f.help(format!("add a {pull} of 10 kΩ–100 kΩ on `{net}` (to `{gnd}` for a pull-down), so the driver holds its switches off in reset"))
