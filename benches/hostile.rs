@@ -346,8 +346,8 @@ fn main() {
     let scratch = std::env::temp_dir().join(format!("armature-hostile-{}", std::process::id()));
     let mut failed = 0;
     println!(
-        "{:<13} {:>8} {:>10} {:>6}  {}",
-        "case", "time", "peak", "exit", "input"
+        "{:<13} {:>8} {:>10} {:>6}  input",
+        "case", "time", "peak", "exit"
     );
     for c in cases() {
         if !wanted.is_empty() && !wanted.iter().any(|w| w == c.name) {
