@@ -225,3 +225,84 @@ fn renamed_rule_ids_are_unknown_with_a_pointer_to_the_new_name() {
         assert!(armature::checks::find(new).is_some());
     }
 }
+
+/// The help of the program and of every command, as users see it: each
+/// command has its own description, none is shifted onto its neighbour.
+#[test]
+fn help_of_every_command() {
+    for args in [
+        &["--help"][..],
+        &["check", "--help"][..],
+        &["explain", "--help"][..],
+        &["rules", "--help"][..],
+        &["facts", "--help"][..],
+        &["export", "--help"][..],
+        &["export", "spice", "--help"][..],
+    ] {
+        let (code, out, err) = stdout(args);
+        assert_eq!(code, 0, "{args:?}: {err}");
+        let name = format!("help_{}", args[..args.len() - 1].join("_"));
+        insta::assert_snapshot!(
+            if name == "help_" {
+                "help".to_string()
+            } else {
+                name
+            },
+            out
+        );
+    }
+    let (_, out, _) = stdout(&["--help"]);
+    for (cmd, words) in [
+        ("facts", "computed quantities"),
+        ("export", "simulator testbench"),
+        ("check", "Check netlists"),
+    ] {
+        let line = out
+            .lines()
+            .find(|l| l.trim_start().starts_with(cmd))
+            .unwrap_or("");
+        assert!(line.contains(words), "{cmd}: {line:?}");
+    }
+}
+
+#[test]
+fn facts_on_a_folder_covers_every_netlist() {
+    let (code, out, err) = stdout(&["facts", "samples", "--format", "json"]);
+    assert_eq!(code, 0, "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap_or_default();
+    let files: Vec<&str> = v
+        .as_array()
+        .map(|a| a.iter().filter_map(|d| d["file"].as_str()).collect())
+        .unwrap_or_default();
+    let mut want: Vec<String> = std::fs::read_dir("samples")
+        .map(|rd| {
+            rd.flatten()
+                .map(|e| e.path())
+                .filter(|p| p.extension().is_some_and(|x| x == "drive"))
+                .map(|p| p.to_string_lossy().replace('\\', "/"))
+                .collect()
+        })
+        .unwrap_or_default();
+    want.sort();
+    assert_eq!(files, want);
+    let (code, out, _) = stdout(&["facts", "samples"]);
+    assert_eq!(code, 0);
+    assert_eq!(out.matches("(ambient ").count(), want.len(), "{out}");
+    // a netlist that cannot be built: located errors, exit 2
+    let dir = std::env::temp_dir().join(format!("armature-facts-{}", std::process::id()));
+    let _ = std::fs::create_dir_all(&dir);
+    let _ = std::fs::write(
+        dir.join("a.drive"),
+        "rail V 5V\nground GND\nresistr R1 (V, GND) 1k\n",
+    );
+    let d = dir.to_string_lossy().into_owned();
+    let (code, _, err) = stdout(&["facts", &d, "--allow-outside-root"]);
+    assert_eq!(code, 2, "{err}");
+    assert!(err.contains("a.drive:3:1"), "{err}");
+    // an empty folder: nothing to show is an error
+    let empty = dir.join("empty");
+    let _ = std::fs::create_dir_all(&empty);
+    let (code, _, err) = stdout(&["facts", &empty.to_string_lossy(), "--allow-outside-root"]);
+    assert_eq!(code, 2, "{err}");
+    assert!(err.contains("no netlist"), "{err}");
+}

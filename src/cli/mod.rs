@@ -43,6 +43,7 @@ pub enum Command {
     },
     /// Print the computed quantities of every part of a netlist
     Facts {
+        /// A netlist, or a folder (every netlist below it, sorted)
         path: PathBuf,
         #[arg(long, value_enum, default_value_t = FactsFormat::Human)]
         format: FactsFormat,
@@ -789,6 +790,89 @@ fn rules(common: &CommonArgs) -> i32 {
     if p.errors.is_empty() { 0 } else { 2 }
 }
 
+/// Read and build one netlist for `facts`/`export`, with the configuration
+/// in force; `Err(2)` after printing the located errors.
+fn built_for(path: &Path, common: &CommonArgs, cache: &LibraryCache) -> Result<crate::Built, i32> {
+    let Some(opts) = profile_or_report(path, common) else {
+        return Err(2);
+    };
+    let shown = crate::shown_path(path);
+    if let Err(why) = linked_inside_root(path, common) {
+        eprintln!("error: `{}`: the netlist is not read: {why}", esc(&shown));
+        return Err(2);
+    }
+    let r = report::human::Renderer::new(false);
+    let file = match crate::read_netlist(path, &shown) {
+        Ok(f) => f,
+        Err(f) => {
+            eprint!("{}", r.render(&f));
+            return Err(2);
+        }
+    };
+    crate::build(&file, &opts, cache).map_err(|errs| {
+        for e in errs {
+            eprint!("{}", r.render(&e));
+        }
+        2
+    })
+}
+
+/// `facts` on a folder: every netlist below it, sorted; human output one
+/// block per file, JSON as one array of the per-file objects.
+fn facts_folder(dir: &Path, format: FactsFormat, wave: Option<&str>, common: &CommonArgs) -> i32 {
+    use crate::analysis::present;
+    if wave.is_some() || matches!(format, FactsFormat::Csv) {
+        eprintln!("error: `--wave` and `--format csv` take one netlist, not a folder");
+        return 2;
+    }
+    let (mut files, mut linked) = (Vec::new(), Vec::new());
+    if let Err(e) = collect(dir, &mut files, &mut linked) {
+        eprintln!(
+            "error: cannot read folder `{}`: {e}",
+            esc(&crate::shown_path(dir))
+        );
+        return 2;
+    }
+    files.extend(linked);
+    files.sort();
+    if files.is_empty() {
+        eprintln!(
+            "error: no netlist (`*.drive`) in `{}` or below it: nothing to show",
+            esc(&crate::shown_path(dir))
+        );
+        return 2;
+    }
+    let cache = LibraryCache::default();
+    let mut code = 0;
+    let mut docs = Vec::new();
+    for (i, f) in files.iter().enumerate() {
+        let b = match built_for(f, common, &cache) {
+            Ok(b) => b,
+            Err(c) => {
+                code = code.max(c);
+                continue;
+            }
+        };
+        match format {
+            FactsFormat::Json => docs.push(present::facts_json(&b)),
+            _ => {
+                // each file's block opens with its name
+                if i > 0 {
+                    println!();
+                }
+                print!("{}", esc(&present::facts_human(&b)));
+            }
+        }
+    }
+    if matches!(format, FactsFormat::Json) {
+        println!(
+            "{}",
+            serde_json::to_string_pretty(&serde_json::Value::Array(docs)).unwrap_or_default()
+        );
+    }
+    code
+}
+
 fn facts(
     path: &Path,
     format: FactsFormat,
@@ -796,30 +880,12 @@ fn facts(
     edge: EdgeArg,
     common: &CommonArgs,
 ) -> i32 {
-    let Some(opts) = profile_or_report(path, common) else {
-        return 2;
-    };
-    let cache = LibraryCache::default();
-    let shown = crate::shown_path(path);
-    if let Err(why) = linked_inside_root(path, common) {
-        eprintln!("error: `{}`: the netlist is not read: {why}", esc(&shown));
-        return 2;
+    if path.is_dir() {
+        return facts_folder(path, format, wave, common);
     }
-    let file = match crate::read_netlist(path, &shown) {
-        Ok(f) => f,
-        Err(f) => {
-            eprint!("{}", report::human::Renderer::new(false).render(&f));
-            return 2;
-        }
-    };
-    match crate::build(&file, &opts, &cache) {
-        Err(errs) => {
-            let r = report::human::Renderer::new(false);
-            for e in errs {
-                eprint!("{}", r.render(&e));
-            }
-            2
-        }
+    let shown = crate::shown_path(path);
+    match built_for(path, common, &LibraryCache::default()) {
+        Err(code) => code,
         Ok(b) => {
             use crate::analysis::present;
             if let Some(name) = wave {
@@ -872,31 +938,10 @@ fn export_spice(
     corner: CornerArg,
     common: &CommonArgs,
 ) -> i32 {
-    let Some(opts) = profile_or_report(path, common) else {
-        return 2;
-    };
-    let cache = LibraryCache::default();
     let shown = crate::shown_path(path);
-    let r = report::human::Renderer::new(false);
-    if let Err(why) = linked_inside_root(path, common) {
-        eprintln!("error: `{}`: the netlist is not read: {why}", esc(&shown));
-        return 2;
-    }
-    let file = match crate::read_netlist(path, &shown) {
-        Ok(f) => f,
-        Err(f) => {
-            eprint!("{}", r.render(&f));
-            return 2;
-        }
-    };
-    let b = match crate::build(&file, &opts, &cache) {
+    let b = match built_for(path, common, &LibraryCache::default()) {
         Ok(b) => b,
-        Err(errs) => {
-            for e in errs {
-                eprint!("{}", r.render(&e));
-            }
-            return 2;
-        }
+        Err(code) => return code,
     };
     let sw = match part {
         Some(name) => match b.circuit.part_id(name) {
