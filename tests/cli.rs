@@ -216,11 +216,15 @@ fn every_fact_in_json_is_a_value_with_a_unit() {
 }
 
 #[test]
-fn renamed_rule_ids_are_unknown_with_a_pointer_to_the_new_name() {
+fn renamed_rule_ids_point_to_the_new_name() {
     for (old, new) in armature::checks::RENAMED {
-        let (code, _, err) = stdout(&["explain", old]);
-        assert_eq!(code, 2, "{old}");
-        assert!(err.contains(&format!("did you mean `{new}`")), "{err}");
+        let (code, out, err) = stdout(&["explain", old]);
+        assert_eq!(code, 0, "{old}: {err}");
+        assert!(
+            out.starts_with(&format!("`{old}` is now `{new}`.")),
+            "{out}"
+        );
+        assert!(out.contains(&format!("{new} (")), "{out}");
         assert!(armature::checks::find(old).is_none());
         assert!(armature::checks::find(new).is_some());
     }
@@ -305,4 +309,91 @@ fn facts_on_a_folder_covers_every_netlist() {
     let (code, _, err) = stdout(&["facts", &empty.to_string_lossy(), "--allow-outside-root"]);
     assert_eq!(code, 2, "{err}");
     assert!(err.contains("no netlist"), "{err}");
+}
+
+/// `explain` knows every id that any output carries (rules, input errors,
+/// notes), every part kind, and suggests for the rest.
+#[test]
+fn explain_knows_every_id_in_any_output() {
+    let mut ids: std::collections::BTreeSet<String> = std::collections::BTreeSet::new();
+    let mut stack = vec![std::path::PathBuf::from("tests/fixtures"), "samples".into()];
+    let mut files = Vec::new();
+    while let Some(p) = stack.pop() {
+        for e in std::fs::read_dir(&p).into_iter().flatten().flatten() {
+            let q = e.path();
+            if q.is_dir() {
+                stack.push(q);
+            } else if q.extension().is_some_and(|x| x == "drive") {
+                files.push(q.to_string_lossy().into_owned());
+            }
+        }
+    }
+    assert!(files.len() > 50, "{}", files.len());
+    for f in &files {
+        let (_, out, _) = stdout(&["check", f, "--format", "json", "--no-config"]);
+        let v: serde_json::Value = serde_json::from_str(&out).unwrap_or_default();
+        for x in v["findings"].as_array().into_iter().flatten() {
+            if let Some(r) = x["rule"].as_str() {
+                ids.insert(r.to_string());
+            }
+        }
+    }
+    // input errors, from inputs made for the purpose
+    let dir = std::env::temp_dir().join(format!("armature-explain-{}", std::process::id()));
+    let _ = std::fs::create_dir_all(&dir);
+    let bad = [
+        "rail V 5V\nground GND\nresistor R1 (V GND 1k\n",
+        "rail V 5V\nground GND\nresistor R1 (V, GND) 1k tol=1% tol=2%\n",
+        "rail V 5V\nground GND\nresistor R1 (V, GND) 1k colour=red\n",
+        "rail V 5V\nground GND\nresistr R1 (V, GND) 1k\n",
+        "rail V 5V\nresistor R1 (V, V2) 1k\n",
+        "rail V 5V\nground GND\nresistor R1 (V, GND) 5V\n",
+        "rail V 5V\nground GND\ndrive U9.PA0 static\n",
+        "",
+        "library \"nowhere.yaml\"\nground GND\n",
+    ];
+    for (i, text) in bad.iter().enumerate() {
+        let f = dir.join(format!("b{i}.drive"));
+        let _ = std::fs::write(&f, text);
+        let (_, out, _) = stdout(&[
+            "check",
+            &f.to_string_lossy(),
+            "--format",
+            "json",
+            "--no-config",
+            "--allow-outside-root",
+        ]);
+        let v: serde_json::Value = serde_json::from_str(&out).unwrap_or_default();
+        for x in v["findings"].as_array().into_iter().flatten() {
+            if let Some(r) = x["rule"].as_str() {
+                ids.insert(r.to_string());
+            }
+        }
+    }
+    for id in [
+        "parse-error",
+        "suppression-unused",
+        "duplicate-key",
+        "unknown-key",
+        "unknown-kind",
+        "ground-missing",
+        "invalid-value",
+        "unknown-ref",
+        "file-error",
+    ] {
+        assert!(ids.contains(id), "no fixture shows {id}: {ids:?}");
+    }
+    for k in armature::model::kinds::Kind::ALL {
+        ids.insert(k.name().to_string());
+    }
+    for id in &ids {
+        let (code, out, err) = stdout(&["explain", id]);
+        assert_eq!(code, 0, "explain {id}: {err}");
+        assert!(out.len() > 40, "explain {id}: {out}");
+    }
+    let (code, _, err) = stdout(&["explain", "freewheel"]);
+    assert_eq!(code, 2);
+    assert!(err.contains("`freewheel-missing`"), "{err}");
+    let (_, out, _) = stdout(&["explain", "nmos"]);
+    assert!(out.contains("| `vgs_th` | voltage | V |"), "{out}");
 }

@@ -65,14 +65,130 @@ pub const RENAMED: &[(&str, &str)] = &[
     ("unknown-part", "part-not-in-library"),
 ];
 
+/// Ids that appear in output but are not rules: input errors (exit 2;
+/// nothing in the file was checked), suppression notes and analysis
+/// notes. `explain` knows each. (id, what it is, what to do.)
+pub const OTHER_IDS: &[(&str, &str, &str)] = &[
+    (
+        "parse-error",
+        "input error: a line that is not a statement of the `.drive` language (a misspelt keyword, a missing parenthesis, a stray character).",
+        "Fix the line at the position shown; every bad line is reported, not only the first.",
+    ),
+    (
+        "invalid-value",
+        "input error: a value that cannot mean what its key asks for: the wrong dimension (`60A` for a voltage), a rating of zero or below, a temperature below absolute zero, a negative tolerance, a number out of range.",
+        "Write the quantity with its unit and a sensible size; ratings are magnitudes (`30V` for a p-channel part too).",
+    ),
+    (
+        "unknown-key",
+        "input error: a key that the part's kind does not have (in a netlist or a library).",
+        "Use one of the kind's keys (the message lists them or suggests the closest); `armature explain KIND` lists them all.",
+    ),
+    (
+        "duplicate-key",
+        "input error: a key given twice on one line (a bare value and `value=` count as the same key); which one was meant cannot be known.",
+        "Keep one of the two.",
+    ),
+    (
+        "unknown-kind",
+        "input error: a part line whose first word is no kind of the language.",
+        "Use one of the kinds (`nmos`, `solenoid`, …); the message suggests the closest. `armature explain KIND` describes each.",
+    ),
+    (
+        "unknown-ref",
+        "input error: a `drive` line (or other reference) names a designator that no part has.",
+        "Name an existing controller or driver, as `U1.PA3`.",
+    ),
+    (
+        "kind-mismatch",
+        "input error: `part=` names a library part of another kind than the line's.",
+        "Use a part of the line's kind, or change the line's kind.",
+    ),
+    (
+        "library-error",
+        "input error: a parts library that cannot be used: unreadable, not YAML, anchors or aliases, a part without `kind`, a bad key or value, or a part that two loaded libraries define.",
+        "Fix the library at the location given; `docs/library.md` describes the format.",
+    ),
+    (
+        "config-error",
+        "input error: an `armature.yaml` that cannot be used: an unknown key, a bad severity or derating, a path outside the project root.",
+        "Fix the configuration at the location given.",
+    ),
+    (
+        "rules-error",
+        "input error: a team-rule file that cannot be used: an unknown field, a bad expression, a duplicate id.",
+        "Fix the rule file at the location given; `docs/team-rules.md` describes the format.",
+    ),
+    (
+        "file-error",
+        "input error: a file that cannot be read: missing, a folder, not a regular file, too large, outside the project root, empty, or a folder with no netlist.",
+        "Name a netlist inside the project; `docs/security.md` lists the limits.",
+    ),
+    (
+        "ground-missing",
+        "input error: a netlist with parts but no `ground` statement; without a reference no voltage can be solved.",
+        "Add `ground GND` (or the name the board uses).",
+    ),
+    (
+        "limit-exceeded",
+        "input error: a netlist with more parts than the limit (2,000,000).",
+        "Split the design into several netlists.",
+    ),
+    (
+        "suppression-malformed",
+        "note: an `# armature: allow …` comment that cannot be read.",
+        "Write `# armature: allow RULE -- reason`.",
+    ),
+    (
+        "suppression-no-reason",
+        "note: a suppression without a reason after `--`; it suppresses nothing.",
+        "Say why the finding does not apply: `-- duty never above 20 %`.",
+    ),
+    (
+        "suppression-unknown-rule",
+        "note: a suppression naming a rule that does not exist.",
+        "Use a rule id from `armature rules`.",
+    ),
+    (
+        "suppression-unused",
+        "note: a suppression on a line where its rule finds nothing: stale, or on the wrong line.",
+        "Remove it, or move it to the line the finding is on.",
+    ),
+    (
+        "analysis-nonconvergent",
+        "warning: an operating point or a switching edge of a group that the solver could not converge, even with gmin and source stepping; the results for its parts are incomplete.",
+        "Look for a value far out of range or a loop of switches that drive each other; `armature export spice` writes the group for a simulator.",
+    ),
+];
+
 /// "did you mean …" for an unknown rule id: the new name of a renamed
 /// rule, else the closest built-in id.
 pub fn suggest_rule(id: &str) -> String {
     if let Some((_, new)) = RENAMED.iter().find(|(old, _)| *old == id) {
         return format!("did you mean `{new}`? (`{id}` was renamed)");
     }
-    let ids: Vec<&'static str> = registry().iter().map(|r| r.meta.id).collect();
-    crate::suggest::did_you_mean(id, ids.iter().copied())
+    let ids: Vec<&'static str> = registry()
+        .iter()
+        .map(|r| r.meta.id)
+        .chain(OTHER_IDS.iter().map(|(i, _, _)| *i))
+        .chain(crate::model::kinds::Kind::ALL.iter().map(|k| k.name()))
+        .collect();
+    let hint = crate::suggest::did_you_mean(id, ids.iter().copied());
+    if !hint.is_empty() {
+        return hint;
+    }
+    // a family word (`freewheel`, `gate`): the ids that contain it
+    let lower = id.to_ascii_lowercase();
+    let family: Vec<String> = ids
+        .iter()
+        .filter(|i| lower.len() >= 3 && i.split('-').any(|w| w == lower))
+        .map(|i| format!("`{i}`"))
+        .collect();
+    if family.is_empty() {
+        String::new()
+    } else {
+        format!("did you mean one of {}?", family.join(", "))
+    }
 }
 
 pub fn find(id: &str) -> Option<Rule> {

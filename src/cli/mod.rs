@@ -733,6 +733,21 @@ fn explain(id: &str, common: &CommonArgs) -> i32 {
             return 0;
         }
     }
+    let id = match crate::checks::RENAMED.iter().find(|(old, _)| *old == id) {
+        Some((old, new)) => {
+            println!("`{old}` is now `{new}`.\n");
+            *new
+        }
+        None => id,
+    };
+    if let Some(kind) = crate::model::kinds::Kind::from_name(id) {
+        print!("{}", crate::model::reference::kind_page(kind));
+        return 0;
+    }
+    if let Some((other, what, fix)) = crate::checks::OTHER_IDS.iter().find(|(i, _, _)| *i == id) {
+        println!("{other}\n\n{what}\n\n{fix}");
+        return 0;
+    }
     match crate::checks::find(id) {
         Some(r) => {
             let m = r.meta;
@@ -747,7 +762,7 @@ fn explain(id: &str, common: &CommonArgs) -> i32 {
         None => {
             let hint = crate::checks::suggest_rule(id);
             eprintln!(
-                "error: unknown rule `{}`{}",
+                "error: `{}` is no rule, input error, note or part kind{}",
                 esc(id),
                 if hint.is_empty() {
                     String::new()

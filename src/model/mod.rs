@@ -8,6 +8,7 @@
 
 pub mod kinds;
 pub mod library;
+pub mod reference;
 
 use crate::finding::Finding;
 use crate::source::{SourceFile, Span};
