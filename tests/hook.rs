@@ -22,7 +22,11 @@ fn git_available() -> bool {
 }
 
 fn sh(dir: &Path, args: &[&str]) {
-    let out = match Command::new(args[0]).args(&args[1..]).current_dir(dir).output() {
+    let out = match Command::new(args[0])
+        .args(&args[1..])
+        .current_dir(dir)
+        .output()
+    {
         Ok(o) => o,
         Err(e) => panic!("{args:?}: {e}"),
     };
@@ -48,7 +52,10 @@ fn repo(tag: &str, netlist: &str) -> PathBuf {
     let _ = std::fs::remove_dir_all(&dir);
     let _ = std::fs::create_dir_all(&dir);
     sh(&dir, &["git", "init", "-q"]);
-    sh(&dir, &["git", "config", "user.email", "hook@example.invalid"]);
+    sh(
+        &dir,
+        &["git", "config", "user.email", "hook@example.invalid"],
+    );
     sh(&dir, &["git", "config", "user.name", "hook test"]);
     write(&dir.join("parts.yaml"), include_str!("fixtures/parts.yaml"));
     write(&dir.join(netlist), GOOD);

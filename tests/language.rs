@@ -380,3 +380,25 @@ fn library_values_are_decimal_positive_and_defined_once() {
     assert_eq!(f.related.len(), 2);
     assert!(r.input_error());
 }
+
+#[test]
+fn one_library_loaded_twice_defines_its_parts_once() {
+    let opts = Options {
+        libraries: vec![(LIB.into(), LIB.to_string())],
+        ..Options::default()
+    };
+    let r = check_text(
+        "t.drive",
+        &format!(
+            "library \"{LIB}\"\nrail V 12V\nground GND\nresistor R1 (V, GND) 10k\nnmos Q1 (d: V, g: GND, s: GND) part=DEMO-N60-3A\n"
+        ),
+        &opts,
+    );
+    assert!(
+        !r.findings
+            .iter()
+            .any(|f| f.message.contains("two libraries")),
+        "{:?}",
+        r.findings.iter().map(|f| &f.message).collect::<Vec<_>>()
+    );
+}

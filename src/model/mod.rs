@@ -336,7 +336,9 @@ impl Drafter<'_> {
     fn lib_part_twice(&self, name: &str) -> Option<(Arc<LibPart>, Arc<LibPart>)> {
         let mut found = self.libs.iter().filter_map(|l| l.parts.get(name));
         let first = found.next()?;
-        let second = found.next()?;
+        // the same library loaded twice (a `library` line and the
+        // configuration) defines it once
+        let second = found.find(|p| !Arc::ptr_eq(p, first))?;
         Some((first.clone(), second.clone()))
     }
 
