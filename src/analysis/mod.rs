@@ -639,6 +639,31 @@ fn read_switches(
     a: &mut GroupAcc,
 ) {
     let nl = &sol.nl;
+    // each controller pin's largest current (driven high, stalled, rails
+    // at their maximum), once per group: every switch of the pin reads it
+    let pin_peak: Vec<(&CtlPin, f64)> = nl
+        .elems
+        .iter()
+        .enumerate()
+        .filter_map(|(k, e)| {
+            let Dev::Pin { pin, .. } = e.dev else {
+                return None;
+            };
+            let cp = grp.pins.get(pin as usize)?;
+            let mut peak: Option<f64> = None;
+            for (s, ops) in sol.ops.iter().enumerate() {
+                if sol.states.get(s).and_then(|x| x.get(pin as usize)) != Some(&PinState::High) {
+                    continue;
+                }
+                let o = &ops[solve::slot(Corner::Max, Mode::Stall)];
+                let i = -newton::currents(nl, k, &o.x, &o.ex, None)[0];
+                if peak.is_none_or(|m| i.abs() > m) {
+                    peak = Some(i.abs());
+                }
+            }
+            peak.map(|m| (cp, m))
+        })
+        .collect();
     for ls in &sol.switches {
         let Some(&pid) = grp.parts.get(ls.part as usize) else {
             continue;
@@ -727,25 +752,12 @@ fn read_switches(
             }
         }
         // the largest current out of a controlling pin
-        for (k, e) in nl.elems.iter().enumerate() {
-            let Dev::Pin { pin, .. } = e.dev else {
-                continue;
-            };
-            let Some(cp) = grp.pins.get(pin as usize) else {
-                continue;
-            };
+        for &(cp, m) in &pin_peak {
             if !info.drivers.contains(cp) && !info.controls.iter().any(|(x, _)| x == cp) {
                 continue;
             }
-            for (s, ops) in sol.ops.iter().enumerate() {
-                if sol.states.get(s).and_then(|x| x.get(pin as usize)) != Some(&PinState::High) {
-                    continue;
-                }
-                let o = &ops[solve::slot(Corner::Max, Mode::Stall)];
-                let i = -newton::currents(nl, k, &o.x, &o.ex, None)[0];
-                if info.pin_current.as_ref().is_none_or(|(_, m)| i.abs() > *m) {
-                    info.pin_current = Some((cp.clone(), i.abs()));
-                }
+            if info.pin_current.as_ref().is_none_or(|(_, best)| m > *best) {
+                info.pin_current = Some((cp.clone(), m));
             }
         }
         // a stage of another switch's gate network
@@ -848,6 +860,13 @@ fn read_switches(
 
 fn read_loads(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut GroupAcc) {
     let nl = &sol.nl;
+    // each switch's PWM, looked up per load (a scan of the group's
+    // switches per load was quadratic in a group of a thousand channels)
+    let pwm_of: HashMap<PartId, (f64, f64)> = a
+        .switches
+        .iter()
+        .map(|(p, i)| (*p, (i.f_pwm, i.duty_max)))
+        .collect();
     for (k, e) in nl.elems.iter().enumerate() {
         let Dev::Load { r, l, emf } = e.dev else {
             continue;
@@ -977,12 +996,7 @@ fn read_loads(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut 
         }
         let (f_pwm, duty_max) = switches
             .iter()
-            .filter_map(|q| {
-                a.switches
-                    .iter()
-                    .find(|(p, _)| p == q)
-                    .map(|(_, i)| (i.f_pwm, i.duty_max))
-            })
+            .filter_map(|q| pwm_of.get(q).copied())
             .fold((0.0f64, 1.0f64), |acc, x| if x.0 > acc.0 { x } else { acc });
         a.facts.set(lid, "f_pwm", f_pwm, Frequency, None);
         if f_pwm > 0.0 && l > 0.0 {
