@@ -27,7 +27,12 @@ pub struct Config {
 /// temporary folder, is never picked up).
 pub fn discover(start: &Path, root: Option<&crate::trust::Root>) -> Option<PathBuf> {
     let abs = std::fs::canonicalize(start).unwrap_or_else(|_| start.to_path_buf());
-    let mut dir = Some(abs.as_path());
+    discover_from(&abs, root)
+}
+
+/// `discover` from a folder already canonical.
+pub fn discover_from(abs: &Path, root: Option<&crate::trust::Root>) -> Option<PathBuf> {
+    let mut dir = Some(abs);
     while let Some(d) = dir {
         if root.is_some_and(|r| !d.starts_with(&r.dir)) {
             return None;

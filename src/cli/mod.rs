@@ -230,6 +230,20 @@ pub fn is_netlist(p: &Path) -> bool {
 /// symlinks (which may point anywhere) into `linked` instead, for the
 /// root check.
 fn collect(path: &Path, out: &mut Vec<PathBuf>, linked: &mut Vec<PathBuf>) -> std::io::Result<()> {
+    collect_in(path, out, linked, &mut std::collections::HashMap::new())
+}
+
+/// `collect`, also noting each folder's canonical path in `canon`: the
+/// walk follows no symlinked folder, so below the (canonicalised) start a
+/// folder's canonical path is the start's joined with the rest, and no
+/// folder needs asking the system again.
+fn collect_in(
+    path: &Path,
+    out: &mut Vec<PathBuf>,
+    linked: &mut Vec<PathBuf>,
+    canon: &mut std::collections::HashMap<PathBuf, PathBuf>,
+) -> std::io::Result<()> {
+    let start = std::fs::canonicalize(path).ok();
     let mut seen: std::collections::HashSet<(u64, u64)> = std::collections::HashSet::new();
     let mut stack = vec![path.to_path_buf()];
     let mut first = true;
@@ -249,6 +263,9 @@ fn collect(path: &Path, out: &mut Vec<PathBuf>, linked: &mut Vec<PathBuf>) -> st
             Err(_) => continue,
         };
         first = false;
+        if let (Some(st), Ok(rest)) = (&start, dir.strip_prefix(path)) {
+            canon.insert(dir.clone(), st.join(rest));
+        }
         // the entry's own type (from the folder listing, no stat; a
         // symlinked folder is not a folder here, so it is not followed)
         let mut entries: Vec<(PathBuf, bool, bool)> = rd
@@ -405,11 +422,12 @@ fn check(a: CheckArgs) -> i32 {
     };
     let mut files = Vec::new();
     let mut linked = Vec::new();
+    let mut canon: std::collections::HashMap<PathBuf, PathBuf> = std::collections::HashMap::new();
     let mut missing: Vec<FileResult> = Vec::new();
     for p in &paths {
         if p.is_dir() {
             let before = files.len() + linked.len();
-            if let Err(e) = collect(p, &mut files, &mut linked) {
+            if let Err(e) = collect_in(p, &mut files, &mut linked, &mut canon) {
                 missing.push(error_result(p, &format!("cannot read folder: {e}")));
             } else if files.len() + linked.len() == before {
                 missing.push(error_result(
@@ -458,7 +476,15 @@ fn check(a: CheckArgs) -> i32 {
         .map(|f| f.parent().unwrap_or(Path::new("")))
         .filter(|d| unique.insert(d))
         .collect();
-    let found: Vec<Option<PathBuf>> = dirs.par_iter().map(|d| config_in(d, &a.common)).collect();
+    let found: Vec<Option<PathBuf>> = dirs
+        .par_iter()
+        .map(|d| match canon.get(*d) {
+            Some(c) if !a.common.no_config && a.common.config.is_none() => {
+                crate::config::discover_from(c, Some(&a.common.root()))
+            }
+            _ => config_in(d, &a.common),
+        })
+        .collect();
     by_dir.extend(dirs.iter().map(|d| d.to_path_buf()).zip(found));
     for f in &files {
         let dir = f.parent().map(Path::to_path_buf).unwrap_or_default();
