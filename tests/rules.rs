@@ -209,3 +209,18 @@ fn long_part_lists_are_bounded_in_messages() {
     unique.dedup();
     assert_eq!(unique.len(), f.parts.len());
 }
+
+/// On a gate net shared by several channels, a load's switch is the one
+/// on its own current path, not every channel's switch that conducts.
+#[test]
+fn a_shared_gate_names_each_load_its_own_switch() {
+    let (_, res) = rules_fired(&fixture_dir("freewheel-reversed").join("shared-gate.drive"));
+    let Some(f) = res.findings.iter().find(|f| f.rule == "freewheel-reversed") else {
+        panic!(
+            "{:?}",
+            res.findings.iter().map(|f| &f.message).collect::<Vec<_>>()
+        )
+    };
+    assert!(f.message.contains("through `Q2`"), "{}", f.message);
+    assert!(!f.message.contains("`Q0`"), "{}", f.message);
+}

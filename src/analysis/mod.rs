@@ -460,7 +460,7 @@ fn read_group(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution) -> Group
     // resistor-joined nodes, for both readers that ask
     let links = ResistorLinks::new(&sol.nl);
     read_switches(c, gi, grp, sol, &links, &mut a);
-    read_loads(c, gi, grp, sol, &mut a);
+    read_loads(c, gi, grp, sol, &links, &mut a);
     read_edges(c, gi, grp, sol, &mut a);
     read_legs(c, grp, sol, &mut a);
     read_diodes(c, grp, sol, &mut a);
@@ -858,8 +858,33 @@ fn read_switches(
     }
 }
 
-fn read_loads(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut GroupAcc) {
+fn read_loads(
+    c: &Circuit,
+    gi: usize,
+    grp: &Group,
+    sol: &GroupSolution,
+    links: &ResistorLinks,
+    a: &mut GroupAcc,
+) {
     let nl = &sol.nl;
+    // switches by the resistor-joined component of their main terminals'
+    // unknown nodes (a rail joins nothing: every part touches one)
+    let node_comp = |n: Nd| match n {
+        Nd::Var(v) => links.comp.get(v as usize).copied(),
+        _ => None,
+    };
+    let mut by_comp: HashMap<u32, Vec<usize>> = HashMap::default();
+    for (i, ls) in sol.switches.iter().enumerate() {
+        if let Some(km) = nl.elem_index(ls.part as usize, Role::Main)
+            && let Some(el) = nl.elems.get(km)
+        {
+            for n in [el.t.first(), el.t.get(2)].into_iter().flatten() {
+                if let Some(k) = node_comp(*n) {
+                    by_comp.entry(k).or_default().push(i);
+                }
+            }
+        }
+    }
     // each switch's PWM, looked up per load (a scan of the group's
     // switches per load was quadratic in a group of a thousand channels)
     let pwm_of: HashMap<PartId, (f64, f64)> = a
@@ -931,20 +956,41 @@ fn read_loads(c: &Circuit, gi: usize, grp: &Group, sol: &GroupSolution, a: &mut 
             ),
         };
         a.facts.set(lid, "i_cont", i_cont, Current, Some(cont_note));
-        // the switches that carry it
-        let mut switches = Vec::new();
-        for ls in &sol.switches {
-            if let Some(pt) = point(ls, bs, Corner::Max)
-                && pt.region != Region::Off
-                && pt.i_d.abs() >= 0.5 * i_stall
-                && let Some(&q) = grp.parts.get(ls.part as usize)
-            {
-                switches.push(q);
+        // the switches that carry it: those conducting at least half its
+        // current that sit on its own current path (a main terminal on a
+        // switched node of the load, directly or through resistors); only
+        // when none does (a topology with something else in series), any
+        // switch conducting that much. Without the path test, every
+        // channel of a shared gate net "carried" every channel's load.
+        let carries = |ls: &solve::LocalSwitch| {
+            point(ls, bs, Corner::Max)
+                .is_some_and(|pt| pt.region != Region::Off && pt.i_d.abs() >= 0.5 * i_stall)
+        };
+        let (np, nm) = (e.t[0], e.t[1]);
+        let mut on_path: Vec<usize> = Vec::new();
+        for end in [np, nm] {
+            if let Some(list) = node_comp(end).and_then(|k| by_comp.get(&k)) {
+                on_path.extend(list.iter().copied());
             }
+        }
+        on_path.sort_unstable();
+        on_path.dedup();
+        let mut switches: Vec<PartId> = on_path
+            .iter()
+            .filter_map(|&i| sol.switches.get(i))
+            .filter(|ls| carries(ls))
+            .filter_map(|ls| grp.parts.get(ls.part as usize).copied())
+            .collect();
+        if switches.is_empty() {
+            switches = sol
+                .switches
+                .iter()
+                .filter(|ls| carries(ls))
+                .filter_map(|ls| grp.parts.get(ls.part as usize).copied())
+                .collect();
         }
         // diodes on its circuit that conduct while it is driven
         let mut reversed = Vec::new();
-        let (np, nm) = (e.t[0], e.t[1]);
         for (kd, d) in nl.elems.iter().enumerate() {
             if !matches!(d.dev, Dev::Diode(_)) || d.role != Role::Main {
                 continue;
