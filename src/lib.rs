@@ -8,6 +8,12 @@
 // is built once per failed file, so boxing it would buy nothing.
 #![allow(clippy::result_large_err)]
 
+// The generated parsers name `alloc` (pest is built without its `std`
+// feature, which would add a stack-depth probe to every rule call: the
+// netlist grammar does not recurse, and expressions are depth-checked
+// before they reach their recursive grammar).
+extern crate alloc;
+
 pub mod analysis;
 pub mod checks;
 pub mod cli;
