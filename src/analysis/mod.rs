@@ -873,6 +873,21 @@ fn read_loads(
         Nd::Var(v) => links.comp.get(v as usize).copied(),
         _ => None,
     };
+    // diodes by the unknown nodes their part touches, for the loads'
+    // reversed-diode test (a scan of every element per load was quadratic)
+    let mut diodes_at: HashMap<u32, Vec<usize>> = HashMap::default();
+    for (kd, d) in nl.elems.iter().enumerate() {
+        if !matches!(d.dev, Dev::Diode(_)) || d.role != Role::Main {
+            continue;
+        }
+        for x in nl.elems_of(d.part as usize) {
+            for n in &x.t {
+                if let Nd::Var(v) = n {
+                    diodes_at.entry(*v).or_default().push(kd);
+                }
+            }
+        }
+    }
     let mut by_comp: HashMap<u32, Vec<usize>> = HashMap::default();
     for (i, ls) in sol.switches.iter().enumerate() {
         if let Some(km) = nl.elem_index(ls.part as usize, Role::Main)
@@ -991,7 +1006,21 @@ fn read_loads(
         }
         // diodes on its circuit that conduct while it is driven
         let mut reversed = Vec::new();
-        for (kd, d) in nl.elems.iter().enumerate() {
+        let mut near: Vec<usize> = [np, nm]
+            .iter()
+            .filter_map(|n| match n {
+                Nd::Var(v) => diodes_at.get(v),
+                _ => None,
+            })
+            .flatten()
+            .copied()
+            .collect();
+        near.sort_unstable();
+        near.dedup();
+        for (kd, d) in near
+            .into_iter()
+            .filter_map(|kd| nl.elems.get(kd).map(|d| (kd, d)))
+        {
             if !matches!(d.dev, Dev::Diode(_)) || d.role != Role::Main {
                 continue;
             }
