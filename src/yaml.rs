@@ -228,18 +228,12 @@ pub fn scalar_text(v: &Value) -> Option<String> {
 pub fn quantity_text(doc: &YamlDoc, path: &str, v: &Value) -> Result<Option<String>, String> {
     if let Value::Number(_) = v {
         let raw = doc.file.slice(doc.value_span(path)).trim();
-        let digits = raw.trim_start_matches(['+', '-']);
-        let lower = digits.to_ascii_lowercase();
-        let decimal = !lower.is_empty()
-            && !lower.starts_with("0x")
-            && !lower.starts_with("0o")
-            && !lower.starts_with("0b")
-            && !lower.contains("inf")
-            && !lower.contains("nan")
-            && lower
-                .chars()
-                .all(|c| c.is_ascii_digit() || matches!(c, '.' | 'e' | '+' | '-' | '_'))
-            && !lower.contains('_');
+        // digits, a point, an exponent and signs only: hex, octal and
+        // binary prefixes, `.inf`, `.nan` and `_` separators all fail
+        let decimal = raw.bytes().any(|b| b.is_ascii_digit())
+            && raw
+                .bytes()
+                .all(|b| b.is_ascii_digit() || matches!(b, b'.' | b'e' | b'E' | b'+' | b'-'));
         if !decimal {
             return Err(format!(
                 "write the number in decimal: YAML reads `{raw}` as {}, which is rarely what a rating means",

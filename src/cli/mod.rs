@@ -223,12 +223,10 @@ pub fn is_netlist(p: &Path) -> bool {
         .is_some_and(|e| e.eq_ignore_ascii_case("drive"))
 }
 
-/// Every netlist below a folder, sorted. Symlinked folders are not
-/// followed, and a folder reached twice (bind mounts, hard links) is read
-/// once: the walk ends on any tree.
 /// Every netlist below a folder, sorted, into `out`; the ones that are
 /// symlinks (which may point anywhere) into `linked` instead, for the
-/// root check.
+/// root check. Symlinked folders are not followed, and a folder reached
+/// twice (bind mounts) is read once: the walk ends on any tree.
 fn collect(path: &Path, out: &mut Vec<PathBuf>, linked: &mut Vec<PathBuf>) -> std::io::Result<()> {
     collect_in(path, out, linked, &mut std::collections::HashMap::new())
 }
@@ -373,7 +371,12 @@ fn profile(config: Option<&Path>, common: &CommonArgs) -> Profile {
 /// or rule files' errors: a command that cannot honour the configuration
 /// must not answer as if there were none.
 fn profile_or_report(file: &Path, common: &CommonArgs) -> Option<Options> {
-    let p = profile(config_for(file, common).as_deref(), common);
+    options_or_report(config_for(file, common).as_deref(), common)
+}
+
+/// `profile_or_report` for a known configuration (or none).
+fn options_or_report(config: Option<&Path>, common: &CommonArgs) -> Option<Options> {
+    let p = profile(config, common);
     if p.errors.is_empty() {
         return Some(p.opts);
     }
@@ -384,27 +387,40 @@ fn profile_or_report(file: &Path, common: &CommonArgs) -> Option<Options> {
     None
 }
 
+fn is_symlink(path: &Path) -> bool {
+    std::fs::symlink_metadata(path).is_ok_and(|m| m.file_type().is_symlink())
+}
+
 /// A netlist named on the command line that is a symlink must resolve
 /// inside the root (see `check`).
 fn linked_inside_root(path: &Path, common: &CommonArgs) -> Result<(), String> {
-    if std::fs::symlink_metadata(path).is_ok_and(|m| m.file_type().is_symlink()) {
+    if is_symlink(path) {
         common.root().check(path)
     } else {
         Ok(())
     }
 }
 
-fn config_for(file: &Path, common: &CommonArgs) -> Option<PathBuf> {
-    config_in(file.parent().unwrap_or(Path::new("")), common)
+/// A file's folder (empty for a bare file name).
+fn parent_of(file: &Path) -> &Path {
+    file.parent().unwrap_or(Path::new(""))
 }
 
-/// The configuration in force for the files of one folder.
-fn config_in(dir: &Path, common: &CommonArgs) -> Option<PathBuf> {
+fn config_for(file: &Path, common: &CommonArgs) -> Option<PathBuf> {
+    config_in(parent_of(file), None, common)
+}
+
+/// The configuration in force for the files of one folder; `canonical`
+/// is the folder's canonical path when the caller knows it already.
+fn config_in(dir: &Path, canonical: Option<&Path>, common: &CommonArgs) -> Option<PathBuf> {
     if common.no_config {
         return None;
     }
     if let Some(c) = &common.config {
         return Some(c.clone());
+    }
+    if let Some(c) = canonical {
+        return crate::config::discover_from(c, Some(&common.root()));
     }
     let dir = if dir.as_os_str().is_empty() {
         Path::new(".")
@@ -436,7 +452,7 @@ fn check(a: CheckArgs) -> i32 {
                 ));
             }
         } else if p.exists() {
-            if std::fs::symlink_metadata(p).is_ok_and(|m| m.file_type().is_symlink()) {
+            if is_symlink(p) {
                 linked.push(p.clone());
             } else {
                 files.push(p.clone());
@@ -466,32 +482,22 @@ fn check(a: CheckArgs) -> i32 {
     // one profile per configuration, and one discovery per folder
     let mut by_config: std::collections::HashMap<Option<PathBuf>, usize> =
         std::collections::HashMap::new();
-    let mut by_dir: std::collections::HashMap<PathBuf, Option<PathBuf>> =
-        std::collections::HashMap::new();
     let mut configs: Vec<Option<PathBuf>> = Vec::new();
     // one discovery per folder, the folders in parallel
     let mut unique: std::collections::HashSet<&Path> = std::collections::HashSet::new();
     let dirs: Vec<&Path> = files
         .iter()
-        .map(|f| f.parent().unwrap_or(Path::new("")))
+        .map(|f| parent_of(f))
         .filter(|d| unique.insert(d))
         .collect();
     let found: Vec<Option<PathBuf>> = dirs
         .par_iter()
-        .map(|d| match canon.get(*d) {
-            Some(c) if !a.common.no_config && a.common.config.is_none() => {
-                crate::config::discover_from(c, Some(&a.common.root()))
-            }
-            _ => config_in(d, &a.common),
-        })
+        .map(|d| config_in(d, canon.get(*d).map(PathBuf::as_path), &a.common))
         .collect();
-    by_dir.extend(dirs.iter().map(|d| d.to_path_buf()).zip(found));
+    let by_dir: std::collections::HashMap<&Path, Option<PathBuf>> =
+        dirs.into_iter().zip(found).collect();
     for f in &files {
-        let dir = f.parent().map(Path::to_path_buf).unwrap_or_default();
-        let cfg = by_dir
-            .entry(dir)
-            .or_insert_with(|| config_for(f, &a.common))
-            .clone();
+        let cfg = by_dir.get(parent_of(f)).cloned().flatten();
         let idx = match by_config.get(&cfg) {
             Some(&i) => i,
             None => {
@@ -719,7 +725,7 @@ parts' data sheets and licensed practice.";
 
 fn explain(id: &str, common: &CommonArgs) -> i32 {
     if id.contains('/') {
-        let p = profile(config_in(Path::new("."), common).as_deref(), common);
+        let p = profile(config_in(Path::new("."), None, common).as_deref(), common);
         if let Some(r) = p.opts.team.iter().find(|r| r.id == id) {
             let (l, _) = r.file.line_col(r.span.start());
             println!(
@@ -737,7 +743,7 @@ fn explain(id: &str, common: &CommonArgs) -> i32 {
                     .join(", ")
             );
             if let Some(g) = &r.parts {
-                println!("Parts: {}", esc(&g.to_string()));
+                println!("Parts: {}", esc(g.as_str()));
             }
             if let Some((_, w)) = &r.when {
                 println!("When: {}", esc(w));
@@ -814,7 +820,7 @@ fn rules(common: &CommonArgs) -> i32 {
             r.meta.summary
         );
     }
-    let p = profile(config_in(Path::new("."), common).as_deref(), common);
+    let p = profile(config_in(Path::new("."), None, common).as_deref(), common);
     for r in &p.opts.team {
         println!(
             "{:<28} {:<8} {} ({})",
@@ -837,6 +843,16 @@ fn built_for(path: &Path, common: &CommonArgs, cache: &LibraryCache) -> Result<c
     let Some(opts) = profile_or_report(path, common) else {
         return Err(2);
     };
+    built_with(path, &opts, common, cache)
+}
+
+/// `built_for` with the options already loaded.
+fn built_with(
+    path: &Path,
+    opts: &Options,
+    common: &CommonArgs,
+    cache: &LibraryCache,
+) -> Result<crate::Built, i32> {
     let shown = crate::shown_path(path);
     if let Err(why) = linked_inside_root(path, common) {
         eprintln!("error: `{}`: the netlist is not read: {why}", esc(&shown));
@@ -850,7 +866,7 @@ fn built_for(path: &Path, common: &CommonArgs, cache: &LibraryCache) -> Result<c
             return Err(2);
         }
     };
-    crate::build(&file, &opts, cache).map_err(|errs| {
+    crate::build(&file, opts, cache).map_err(|errs| {
         for e in errs {
             eprint!("{}", r.render(&e));
         }
@@ -884,10 +900,21 @@ fn facts_folder(dir: &Path, format: FactsFormat, wave: Option<&str>, common: &Co
         return 2;
     }
     let cache = LibraryCache::default();
+    // one load (and one report of its errors) per configuration
+    let mut options: std::collections::HashMap<Option<PathBuf>, Option<Options>> =
+        std::collections::HashMap::new();
     let mut code = 0;
     let mut docs = Vec::new();
     for (i, f) in files.iter().enumerate() {
-        let b = match built_for(f, common, &cache) {
+        let cfg = config_for(f, common);
+        let opts = options
+            .entry(cfg)
+            .or_insert_with_key(|c| options_or_report(c.as_deref(), common));
+        let built = match opts {
+            Some(o) => built_with(f, o, common, &cache),
+            None => Err(2),
+        };
+        let b = match built {
             Ok(b) => b,
             Err(c) => {
                 code = code.max(c);

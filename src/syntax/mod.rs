@@ -182,6 +182,7 @@ impl<'f> Lines<'f> {
             || matches!(Self::first_word(t), "design" | "ambient" | "drive"))
     }
 
+    /// The first word, with the grammar's word boundary.
     fn first_word(t: &str) -> &str {
         let end = t
             .find(|c: char| !(c.is_ascii_alphanumeric() || "_-+/".contains(c)))
@@ -193,12 +194,9 @@ impl<'f> Lines<'f> {
     /// word boundary (`railing` is a part kind, not `rail`).
     pub fn class(text: &str) -> LineClass {
         let t = text.trim_start_matches([' ', '\t', '\r', '\u{FEFF}']);
-        let word_end = t
-            .find(|c: char| !(c.is_ascii_alphanumeric() || "_-+/".contains(c)))
-            .unwrap_or(t.len());
-        match t.get(..word_end) {
-            Some("rail" | "ground" | "library") => LineClass::Header,
-            Some("drive") => LineClass::Drive,
+        match Self::first_word(t) {
+            "rail" | "ground" | "library" => LineClass::Header,
+            "drive" => LineClass::Drive,
             _ => LineClass::Body,
         }
     }

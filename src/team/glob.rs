@@ -7,6 +7,8 @@ use std::collections::HashMap;
 
 #[derive(Clone, Debug)]
 pub struct Glob {
+    /// The pattern as written.
+    pattern: String,
     /// Pattern positions (a run of `*` counts once) and what each takes.
     len: usize,
     /// Per literal character: the positions it may advance from.
@@ -41,6 +43,7 @@ impl Glob {
         // states 0..=len: state i means "the first i tokens are matched"
         let words = (toks.len() + 1).div_ceil(64);
         let mut g = Glob {
+            pattern: pattern.to_string(),
             len: toks.len(),
             lit: HashMap::new(),
             any: vec![0; words],
@@ -68,6 +71,11 @@ impl Glob {
             }
         }
         g
+    }
+
+    /// The pattern as written.
+    pub fn as_str(&self) -> &str {
+        &self.pattern
     }
 
     /// Follow the `*` positions' empty matches (a star's state also holds

@@ -123,9 +123,8 @@ pub struct TeamRule {
     pub id: String,
     pub severity: Severity,
     pub kinds: Vec<Kind>,
-    pub parts: Option<String>,
-    /// `parts`, compiled.
-    pub parts_glob: Option<glob::Glob>,
+    /// The `parts:` pattern, compiled.
+    pub parts: Option<glob::Glob>,
     pub when: Option<(Expr, String)>,
     pub require: (Expr, String),
     pub message: Vec<Piece>,
@@ -376,8 +375,7 @@ pub fn load(file: &Arc<SourceFile>) -> Result<Vec<TeamRule>, Vec<Finding>> {
                 id,
                 severity,
                 kinds,
-                parts_glob: field("parts").map(|g| glob::Glob::new(&g)),
-                parts: field("parts"),
+                parts: field("parts").map(|g| glob::Glob::new(&g)),
                 when,
                 require,
                 message,
@@ -515,7 +513,7 @@ fn run_rule(r: &TeamRule, c: &Circuit, a: &Analysis, s: &Settings) -> Vec<Findin
         if !r.kinds.contains(&p.kind) {
             continue;
         }
-        if let Some(g) = &r.parts_glob {
+        if let Some(g) = &r.parts {
             // boards repeat part names: each distinct name is matched once
             let name = p.part_name.as_deref().unwrap_or("");
             let hit = *matched.entry(name).or_insert_with(|| g.matches(name));
