@@ -214,7 +214,13 @@ pub fn parse(
                 for (dk, dv) in m {
                     let name = yaml::scalar_text(dk).unwrap_or_default();
                     let p = yaml::child("derating", &name);
-                    let text = yaml::scalar_text(dv).unwrap_or_default();
+                    let text = match yaml::quantity_text(&doc, &p, dv) {
+                        Ok(t) => t.unwrap_or_default(),
+                        Err(msg) => {
+                            errors.push(e(doc.value_span(&p), format!("`{name}`: {msg}")));
+                            continue;
+                        }
+                    };
                     if !DERATING_KEYS.contains(&name.as_str()) {
                         let hint =
                             crate::suggest::did_you_mean(&name, DERATING_KEYS.iter().copied());
@@ -262,10 +268,10 @@ pub fn parse(
                     }
                 }
             }
-            "ambient" => match units::parse_as(
-                &yaml::scalar_text(v).unwrap_or_default(),
-                units::Dimension::Temperature,
-            ) {
+            "ambient" => match yaml::quantity_text(&doc, "ambient", v).and_then(|t| {
+                units::parse_as(&t.unwrap_or_default(), units::Dimension::Temperature)
+                    .map_err(|er| er.to_string())
+            }) {
                 Ok(q) => cfg.settings.ambient = q.value,
                 Err(er) => errors.push(e(doc.value_span("ambient"), format!("`ambient`: {er}"))),
             },

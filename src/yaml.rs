@@ -236,7 +236,7 @@ pub fn quantity_text(doc: &YamlDoc, path: &str, v: &Value) -> Result<Option<Stri
                 .all(|b| b.is_ascii_digit() || matches!(b, b'.' | b'e' | b'E' | b'+' | b'-'));
         if !decimal {
             return Err(format!(
-                "write the number in decimal: YAML reads `{raw}` as {}, which is rarely what a rating means",
+                "write the number in decimal: YAML reads `{raw}` as {}, which is rarely what a quantity means",
                 scalar_text(v).unwrap_or_default()
             ));
         }

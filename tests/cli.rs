@@ -397,3 +397,42 @@ fn explain_knows_every_id_in_any_output() {
     let (_, out, _) = stdout(&["explain", "nmos"]);
     assert!(out.contains("| `vgs_th` | voltage | V |"), "{out}");
 }
+
+/// A configuration's quantities are held to decimal numbers like a
+/// library's: YAML would read `0x28` as 40.
+#[test]
+fn configuration_quantities_are_decimal() {
+    let dir = std::env::temp_dir().join(format!("armature-cfgdec-{}", std::process::id()));
+    let _ = std::fs::create_dir_all(dir.join(".git"));
+    let _ = std::fs::write(
+        dir.join("armature.yaml"),
+        "ambient: 0x28\nderating:\n  voltage: 0x1\n  current: 0.8\n",
+    );
+    let _ = std::fs::write(
+        dir.join("a.drive"),
+        "rail V 5V\nground GND\nresistor R1 (V, GND) 10k\n",
+    );
+    let out = match armature()
+        .args(["check", "a.drive", "--format", "compact"])
+        .current_dir(&dir)
+        .output()
+    {
+        Ok(o) => o,
+        Err(e) => panic!("{e}"),
+    };
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert_eq!(out.status.code(), Some(2), "{text}");
+    assert!(
+        text.contains(
+            "armature.yaml:1:10: error[config-error]: `ambient`: write the number in decimal"
+        ),
+        "{text}"
+    );
+    assert!(
+        text.contains(
+            "armature.yaml:3:12: error[config-error]: `voltage`: write the number in decimal"
+        ),
+        "{text}"
+    );
+    assert!(!text.contains(":4:"), "a decimal value is fine: {text}");
+}
