@@ -31,6 +31,9 @@ fn rule_name(rule: Rule) -> &'static str {
         Rule::WHITESPACE => "whitespace",
         Rule::ident_start | Rule::ident_char | Rule::ident => "a name",
         Rule::pin_name => "a pin name",
+        Rule::net_name | Rule::bare_name => "a net name",
+        Rule::quoted_name | Rule::name_inner => "a quoted name",
+        Rule::designator | Rule::bare_designator | Rule::pin_owner => "a designator",
         Rule::string | Rule::string_inner => "a quoted string",
         Rule::kw_design => "`design`",
         Rule::kw_rev => "`rev`",
@@ -277,6 +280,22 @@ impl<'a> Lower<'a, '_> {
     fn text(&self, p: &Pair<Rule>) -> Text<'a> {
         let span = self.span(p);
         Spanned::new(self.src.get(span.start()..span.end()).unwrap_or(""), span)
+    }
+
+    /// A net name or designator: a quoted one without its quotes.
+    fn name(&self, p: &Pair<Rule>) -> Text<'a> {
+        let inner = p
+            .clone()
+            .into_inner()
+            .next()
+            .and_then(|q| match q.as_rule() {
+                Rule::quoted_name => q.into_inner().next(),
+                _ => None,
+            });
+        match inner {
+            Some(q) => self.text(&q),
+            None => self.text(p),
+        }
     }
 }
 
@@ -548,7 +567,7 @@ fn lower_rail_stmt<'a>(lx: &mut Lower<'a, '_>, p: Pair<Rule>) -> Option<Statemen
     let mut opts = Vec::new();
     for q in p.into_inner() {
         match q.as_rule() {
-            Rule::ident => name = Some(lx.text(&q)),
+            Rule::net_name => name = Some(lx.name(&q)),
             Rule::value => nominal = Some(lower_value(lx, q)),
             Rule::rail_opt => {
                 let mut kind = RailOptKind::Max;
@@ -577,8 +596,8 @@ fn lower_rail_stmt<'a>(lx: &mut Lower<'a, '_>, p: Pair<Rule>) -> Option<Statemen
 }
 
 fn lower_ground_stmt<'a>(lx: &Lower<'a, '_>, p: Pair<Rule>) -> Option<StatementKind<'a>> {
-    let id = p.into_inner().find(|q| q.as_rule() == Rule::ident)?;
-    Some(StatementKind::Ground(lx.text(&id)))
+    let id = p.into_inner().find(|q| q.as_rule() == Rule::net_name)?;
+    Some(StatementKind::Ground(lx.name(&id)))
 }
 
 fn lower_pin_ref<'a>(lx: &Lower<'a, '_>, p: Pair<Rule>) -> Option<PinRef<'a>> {
@@ -654,14 +673,8 @@ fn lower_part_stmt<'a>(lx: &mut Lower<'a, '_>, p: Pair<Rule>) -> Option<Statemen
         .count();
     for q in p.into_inner() {
         match q.as_rule() {
-            Rule::ident => {
-                let t = lx.text(&q);
-                if kind.is_none() {
-                    kind = Some(t);
-                } else if reference.is_none() {
-                    reference = Some(t);
-                }
-            }
+            Rule::ident => kind = Some(lx.text(&q)),
+            Rule::designator => reference = Some(lx.name(&q)),
             Rule::pin_list => {
                 pins_span = lx.span(&q);
                 // exact capacity: millions of part lines, a few pins each
@@ -678,14 +691,17 @@ fn lower_part_stmt<'a>(lx: &mut Lower<'a, '_>, p: Pair<Rule>) -> Option<Statemen
                             if let (Some(pin), Some(net)) = (it.next(), it.next()) {
                                 pins.push(PinEntry {
                                     pin: Some(lx.text(&pin)),
-                                    net: lx.text(&net),
+                                    net: lx.name(&net),
                                 });
                             }
                         }
-                        Rule::bare_net => pins.push(PinEntry {
-                            pin: None,
-                            net: lx.text(&e),
-                        }),
+                        Rule::bare_net => {
+                            let net = match e.clone().into_inner().next() {
+                                Some(n) => lx.name(&n),
+                                None => lx.text(&e),
+                            };
+                            pins.push(PinEntry { pin: None, net })
+                        }
                         _ => {}
                     }
                 }
