@@ -20,6 +20,9 @@ pub struct Config {
     pub libraries: Vec<PathBuf>,
     pub rules: Vec<PathBuf>,
     pub settings: Settings,
+    /// The file has a `spice:` mapping (read when a SPICE netlist is
+    /// checked).
+    pub spice: bool,
 }
 
 /// The nearest `armature.yaml` at or above a folder, no higher than the
@@ -53,6 +56,7 @@ const KEYS: &[&str] = &[
     "derating",
     "ambient",
     "fail-on",
+    "spice",
 ];
 const DERATING_KEYS: &[&str] = &["voltage", "current", "power", "gate_voltage", "tj_margin"];
 
@@ -78,6 +82,7 @@ pub fn parse(
         libraries: Vec::new(),
         rules: Vec::new(),
         settings: Settings::default(),
+        spice: false,
     };
     let e = |span, msg: String| Finding::input(CODE, file, span, msg);
     let root = match &doc.root {
@@ -158,6 +163,7 @@ pub fn parse(
     for (k, v) in &root {
         let key = yaml::scalar_text(k).unwrap_or_default();
         match key.as_str() {
+            "spice" => cfg.spice = true,
             "libraries" => cfg.libraries = paths("libraries", v, &mut errors),
             "rules" => cfg.rules = paths("rules", v, &mut errors),
             "severity" => {

@@ -25,6 +25,7 @@ pub mod model;
 pub mod report;
 pub mod settings;
 pub mod source;
+pub mod spice;
 pub mod suggest;
 pub mod suppress;
 pub mod syntax;
@@ -55,6 +56,12 @@ pub struct Options {
     pub root: Option<trust::Root>,
     /// The configuration file in force (as shown), if any.
     pub config: Option<String>,
+    /// The SPICE mapping in force (`spice:` of the configuration, or
+    /// `--map`).
+    pub spice_map: Option<spice::mapping::MapSource>,
+    /// Read every file as this format (`--input`), whatever its name
+    /// (`None`: by extension).
+    pub input: Option<spice::Input>,
 }
 
 /// The outcome of checking one file.
@@ -244,6 +251,17 @@ fn build_limited(
 
 /// Check one file already in memory.
 pub fn check_source(file: Arc<SourceFile>, opts: &Options, cache: &LibraryCache) -> FileResult {
+    check_source_with(file, opts, cache, Vec::new())
+}
+
+/// `check_source`, with findings of a front end (about the same file)
+/// that go through severities and suppressions with the rest.
+pub fn check_source_with(
+    file: Arc<SourceFile>,
+    opts: &Options,
+    cache: &LibraryCache,
+    extra: Vec<Finding>,
+) -> FileResult {
     match build(&file, opts, cache) {
         Err(mut findings) => {
             report::sort_findings(&mut findings);
@@ -257,6 +275,7 @@ pub fn check_source(file: Arc<SourceFile>, opts: &Options, cache: &LibraryCache)
         }
         Ok(mut b) => {
             let mut findings = std::mem::take(&mut b.analysis.early);
+            findings.extend(extra);
             let ctx = checks::Ctx {
                 circuit: &b.circuit,
                 graph: &b.graph,
@@ -291,6 +310,9 @@ pub fn check_text(name: &str, text: &str, opts: &Options) -> FileResult {
 
 /// Read and check a file on disk.
 pub fn check_path(path: &Path, opts: &Options, cache: &LibraryCache) -> FileResult {
+    if spice::reads_as_spice(path, opts) {
+        return spice::check_path(path, opts, cache);
+    }
     let shown = shown_path(path);
     match read_netlist(path, &shown) {
         Ok(file) => check_source(file, opts, cache),

@@ -41,6 +41,11 @@ pub enum Command {
         #[command(subcommand)]
         what: ExportWhat,
     },
+    /// Convert a netlist of another format to the `.drive` language
+    Import {
+        #[command(subcommand)]
+        what: ImportWhat,
+    },
     /// Print the computed quantities of every part of a netlist
     Facts {
         /// A netlist, or a folder (every netlist below it, sorted)
@@ -54,6 +59,21 @@ pub enum Command {
         /// Which edge `--wave` prints
         #[arg(long, value_enum, default_value_t = EdgeArg::Off, requires = "wave")]
         edge: EdgeArg,
+        #[command(flatten)]
+        common: CommonArgs,
+    },
+}
+
+#[derive(Subcommand, Debug)]
+pub enum ImportWhat {
+    /// A SPICE netlist (with its mapping) as the equivalent `.drive`
+    /// netlist, each line commented with the SPICE line it came from
+    Spice {
+        file: PathBuf,
+        /// Write the netlist to this file (library paths relative to its
+        /// folder) instead of standard output
+        #[arg(short = 'o', long, value_name = "FILE")]
+        output: Option<PathBuf>,
         #[command(flatten)]
         common: CommonArgs,
     },
@@ -102,6 +122,14 @@ pub struct CommonArgs {
     /// Read paths outside the project root too (for trusted input only)
     #[arg(long = "allow-outside-root")]
     pub allow_outside_root: bool,
+    /// The SPICE mapping (YAML) to use instead of the `spice:` section of
+    /// the configuration
+    #[arg(long, value_name = "FILE")]
+    pub map: Option<PathBuf>,
+    /// Read the netlists as this format, whatever their extension
+    /// (default: `.cir .sp .spi .net .cki` are SPICE, the rest `.drive`)
+    #[arg(long, value_enum, value_name = "FORMAT")]
+    pub input: Option<InputArg>,
     /// The root, found once per run (every folder of a walk asks for it).
     #[arg(skip)]
     root_found: std::sync::OnceLock<crate::trust::Root>,
@@ -148,6 +176,12 @@ pub enum FormatArg {
     Compact,
     Json,
     Sarif,
+}
+
+#[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]
+pub enum InputArg {
+    Drive,
+    Spice,
 }
 
 #[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]
@@ -204,6 +238,14 @@ pub fn run(args: Vec<String>) -> i32 {
             edge,
             common,
         } => facts(&path, format, wave.as_deref(), edge, &common),
+        Command::Import {
+            what:
+                ImportWhat::Spice {
+                    file,
+                    output,
+                    common,
+                },
+        } => import_spice(&file, output.as_deref(), &common),
         Command::Export {
             what:
                 ExportWhat::Spice {
@@ -325,6 +367,9 @@ fn profile(config: Option<&Path>, common: &CommonArgs) -> Profile {
                     .map(|p| (p.clone(), crate::shown_path(p)))
                     .collect();
                 rule_files.extend(cfg.rules.iter().cloned());
+                if cfg.spice {
+                    opts.spice_map = Some(crate::spice::map_source(path.to_path_buf(), "spice"));
+                }
             }
             Err(mut e) => errors.append(&mut e),
         }
@@ -348,6 +393,15 @@ fn profile(config: Option<&Path>, common: &CommonArgs) -> Profile {
             }
         }
     };
+    if let Some(m) = &common.map
+        && !outside(m, "mapping", &mut errors)
+    {
+        opts.spice_map = Some(crate::spice::map_source(m.clone(), ""));
+    }
+    opts.input = common.input.map(|i| match i {
+        InputArg::Spice => crate::spice::Input::Spice,
+        InputArg::Drive => crate::spice::Input::Drive,
+    });
     for p in &common.library {
         if !outside(p, "library", &mut errors) {
             opts.libraries.push((p.clone(), crate::shown_path(p)));
@@ -837,6 +891,48 @@ fn rules(common: &CommonArgs) -> i32 {
     if p.errors.is_empty() { 0 } else { 2 }
 }
 
+fn import_spice(file: &Path, output: Option<&Path>, common: &CommonArgs) -> i32 {
+    let shown = crate::shown_path(file);
+    if let Err(why) = linked_inside_root(file, common) {
+        eprintln!("error: `{}`: the netlist is not read: {why}", esc(&shown));
+        return 2;
+    }
+    let Some(opts) = profile_or_report(file, common) else {
+        return 2;
+    };
+    let cache = LibraryCache::default();
+    let base = match output {
+        Some(o) => parent_of(o).to_path_buf(),
+        None => parent_of(file).to_path_buf(),
+    };
+    match crate::spice::import(file, &opts, &cache, &base) {
+        Ok(text) => match output {
+            Some(o) => match std::fs::write(o, text) {
+                Ok(()) => 0,
+                Err(e) => {
+                    eprintln!(
+                        "error: `{}` cannot be written: {e}",
+                        esc(&crate::shown_path(o))
+                    );
+                    2
+                }
+            },
+            None => {
+                let mut out = std::io::stdout().lock();
+                let _ = out.write_all(text.as_bytes());
+                0
+            }
+        },
+        Err(errs) => {
+            let r = report::human::Renderer::new(false);
+            for e in errs {
+                eprint!("{}", r.render(&e));
+            }
+            2
+        }
+    }
+}
+
 /// Read and build one netlist for `facts`/`export`, with the configuration
 /// in force; `Err(2)` after printing the located errors.
 fn built_for(path: &Path, common: &CommonArgs, cache: &LibraryCache) -> Result<crate::Built, i32> {
@@ -866,7 +962,12 @@ fn built_with(
             return Err(2);
         }
     };
-    crate::build(&file, opts, cache).map_err(|errs| {
+    let built = if crate::spice::reads_as_spice(path, opts) {
+        crate::spice::build(&file, opts, cache)
+    } else {
+        crate::build(&file, opts, cache)
+    };
+    built.map_err(|errs| {
         for e in errs {
             eprint!("{}", r.render(&e));
         }
