@@ -7,7 +7,9 @@ use crate::model::Circuit;
 /// Ids that a suppression may name besides the built-in ones: team rules
 /// (with a `/`) are checked against the loaded rule files by the caller.
 fn known_id(id: &str) -> bool {
-    id.contains('/') || crate::checks::registry().iter().any(|r| r.meta.id == id)
+    id.contains('/')
+        || crate::checks::registry().iter().any(|r| r.meta.id == id)
+        || id == crate::spice::M_SUFFIX
 }
 
 /// Remove suppressed findings; report suppressions that are malformed or

@@ -155,6 +155,26 @@ pub const OTHER_IDS: &[(&str, &str, &str)] = &[
         "Remove it, or move it to the line the finding is on.",
     ),
     (
+        "spice-error",
+        "input error: a SPICE netlist line that cannot be checked: an element letter armature does not model (J, E, F, G, H, B, S, W, T…) and the mapping does not name, a `.subckt` without `.ends`, a subcircuit that contains itself, an instance whose node count differs from its subcircuit's ports, an `.include` that cannot be read (or loops), an expression that does not evaluate, a V source that is not a rail (from a net to ground).",
+        "Fix the line shown, or say in the mapping what the element is (`instances:`); `docs/spice-import.md` describes both.",
+    ),
+    (
+        "mapping-error",
+        "input error: a SPICE mapping that cannot be used: an unknown key, a kind that does not exist, a load whose elements are missing or not one series chain, a rail with no voltage.",
+        "Fix the mapping at the location given; `docs/spice-import.md` lists its keys.",
+    ),
+    (
+        "spice-m-suffix",
+        "warning: a resistor or capacitor value in a SPICE netlist written with an upper-case `M` (`1M`). SPICE reads `M` as milli in any case, so `1M` is 1 mΩ; most people who write it mean 1 MΩ (`1Meg`). The check uses SPICE's reading, as the simulator does.",
+        "Write `1Meg` for mega; write the milli value with a lower-case `m` (`10m`) to say milli was meant.",
+    ),
+    (
+        "spice-ignored",
+        "note: a SPICE card or element that is read but not checked: simulator commands (`.tran`, `.op`, `.options`, a `.control` block…) and inductor coupling (`K`). Noted once per kind of card.",
+        "Nothing to fix; the note says what the check left out.",
+    ),
+    (
         "analysis-nonconvergent",
         "warning: an operating point or a switching edge of a group that the solver could not converge, even with gmin and source stepping; the results for its parts are incomplete.",
         "Look for a value far out of range or a loop of switches that drive each other; `armature export spice` writes the group for a simulator.",

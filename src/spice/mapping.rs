@@ -76,6 +76,8 @@ pub struct Mapping {
     /// The exporter put the SPICE letter before references that did not
     /// start with it (`MQ1` for `Q1`): report `Q1`.
     pub strip_letter: bool,
+    /// The ambient temperature of the board (`ambient` of `.drive`).
+    pub ambient: Option<Val>,
     /// Part names of the loaded libraries (for did-you-mean).
     pub known_parts: Vec<String>,
     /// Where the mapping's keys start in the YAML (`spice/` or ``).
@@ -91,6 +93,7 @@ const KEYS: &[&str] = &[
     "loads",
     "drive",
     "strip_letter",
+    "ambient",
 ];
 const RAIL_KEYS: &[&str] = &["nominal", "max", "min", "tol"];
 
@@ -170,6 +173,20 @@ fn strip(seg: &str) -> &str {
 /// Read the mapping at `src`.
 pub fn load(src: &MapSource, root: Option<&crate::trust::Root>) -> Result<Mapping, Vec<Finding>> {
     let shown = crate::shown_path(&src.path);
+    if let Some(Err(why)) = root.map(|r| r.check(&src.path)) {
+        let f = SourceFile::new(shown.clone(), &src.path, String::new());
+        return Err(vec![
+            Finding::input(
+                CODE,
+                &f,
+                Span::new(0, 0),
+                format!("the mapping `{shown}` is not read: {why}"),
+            )
+            .help(
+                "keep the mapping inside the project, or pass `--allow-outside-root` to trust it",
+            ),
+        ]);
+    }
     let file = crate::model::library::read_text(&src.path, &shown).map_err(|f| vec![f])?;
     parse(&file, &src.prefix, root)
 }
@@ -300,6 +317,7 @@ pub fn parse(
                     .map(|g| g.to_ascii_lowercase())
                     .collect();
             }
+            "ambient" => m.ambient = val("ambient", v, &mut errors),
             "strip_letter" => match v {
                 Value::Bool(b) => m.strip_letter = *b,
                 _ => err(

@@ -319,17 +319,35 @@ pub struct LowerOptions<'a> {
     pub comments: bool,
 }
 
-/// Read the mapping in force for a SPICE file.
-pub fn mapping_for(opts: &Options) -> Result<Mapping, Vec<Finding>> {
-    match &opts.spice_map {
-        Some(src) => mapping::load(src, opts.root.as_ref()),
+/// The mapping file beside a netlist: `board.cir` → `board.map.yaml`.
+pub fn sibling_map(netlist: &Path) -> PathBuf {
+    let stem = netlist
+        .file_stem()
+        .map(|s| s.to_string_lossy().into_owned())
+        .unwrap_or_default();
+    netlist.with_file_name(format!("{stem}.map.yaml"))
+}
+
+/// Read the mapping in force for a SPICE file: `--map`, else the
+/// `NAME.map.yaml` beside it, else the configuration's `spice:`, else
+/// the defaults.
+pub fn mapping_for(netlist: &Path, opts: &Options) -> Result<Mapping, Vec<Finding>> {
+    let given = opts.spice_map.as_ref().filter(|m| m.prefix.is_empty());
+    let beside = sibling_map(netlist);
+    let src = match given {
+        Some(m) => Some(m.clone()),
+        None if beside.is_file() => Some(map_source(beside, "")),
+        None => opts.spice_map.clone(),
+    };
+    match src {
+        Some(src) => mapping::load(&src, opts.root.as_ref()),
         None => Ok(Mapping::defaults()),
     }
 }
 
 /// Read, flatten and lower a SPICE file.
 pub fn lower(file: &Arc<SourceFile>, lo: &LowerOptions) -> Result<Lowered, Vec<Finding>> {
-    let mut map = mapping_for(lo.opts)?;
+    let mut map = mapping_for(&file.path, lo.opts)?;
     // the libraries' parts: kinds for the elements, names for hints
     let mut kinds: HashMap<String, Kind> = HashMap::new();
     let mut errors = Vec::new();
@@ -406,6 +424,13 @@ pub fn lower(file: &Arc<SourceFile>, lo: &LowerOptions) -> Result<Lowered, Vec<F
             .map(Path::to_path_buf)
             .unwrap_or_default(),
     };
+    if let Some(a) = &map.ambient {
+        w.begin(mloc(a.span));
+        w.tok("ambient", None);
+        w.raw(" ");
+        w.tok(&a.text, Some(mloc(a.span)));
+        w.end();
+    }
     for (p, span) in &map.libraries {
         w.begin(mloc(*span));
         w.tok("library", None);
