@@ -95,6 +95,14 @@ pub enum ExportWhat {
         /// The rails' corner of the operating point
         #[arg(long, value_enum, default_value_t = CornerArg::Max, requires = "state")]
         corner: CornerArg,
+        /// The whole board as a plain SPICE netlist (as a schematic tool
+        /// would export it), instead of one switch's testbench
+        #[arg(long, conflicts_with_all = ["part", "state"])]
+        board: bool,
+        /// With `--board`: write the mapping that reads the netlist back
+        /// to this file
+        #[arg(long = "map-out", value_name = "FILE", requires = "board")]
+        map_out: Option<PathBuf>,
         #[command(flatten)]
         common: CommonArgs,
     },
@@ -253,9 +261,17 @@ pub fn run(args: Vec<String>) -> i32 {
                     part,
                     state,
                     corner,
+                    board,
+                    map_out,
                     common,
                 },
-        } => export_spice(&file, part.as_deref(), state, corner, &common),
+        } => {
+            if board {
+                export_board(&file, map_out.as_deref(), &common)
+            } else {
+                export_spice(&file, part.as_deref(), state, corner, &common)
+            }
+        }
     }
 }
 
@@ -1098,6 +1114,26 @@ fn facts(
             0
         }
     }
+}
+
+fn export_board(path: &Path, map_out: Option<&Path>, common: &CommonArgs) -> i32 {
+    let b = match built_for(path, common, &LibraryCache::default()) {
+        Ok(b) => b,
+        Err(code) => return code,
+    };
+    let board = crate::spice::export::board(&b.circuit);
+    if let Some(m) = map_out {
+        if let Err(e) = std::fs::write(m, &board.mapping) {
+            eprintln!(
+                "error: `{}` cannot be written: {e}",
+                esc(&crate::shown_path(m))
+            );
+            return 2;
+        }
+    }
+    let mut out = std::io::stdout().lock();
+    let _ = out.write_all(board.netlist.as_bytes());
+    0
 }
 
 fn export_spice(

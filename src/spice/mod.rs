@@ -10,6 +10,7 @@
 //! spice` prints the same netlist, so checking the conversion gives the
 //! same findings as checking the SPICE file.
 
+pub mod export;
 pub mod mapping;
 pub mod number;
 pub mod reader;
