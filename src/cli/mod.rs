@@ -1122,14 +1122,14 @@ fn export_board(path: &Path, map_out: Option<&Path>, common: &CommonArgs) -> i32
         Err(code) => return code,
     };
     let board = crate::spice::export::board(&b.circuit);
-    if let Some(m) = map_out {
-        if let Err(e) = std::fs::write(m, &board.mapping) {
-            eprintln!(
-                "error: `{}` cannot be written: {e}",
-                esc(&crate::shown_path(m))
-            );
-            return 2;
-        }
+    if let Some(m) = map_out
+        && let Err(e) = std::fs::write(m, &board.mapping)
+    {
+        eprintln!(
+            "error: `{}` cannot be written: {e}",
+            esc(&crate::shown_path(m))
+        );
+        return 2;
     }
     let mut out = std::io::stdout().lock();
     let _ = out.write_all(board.netlist.as_bytes());
