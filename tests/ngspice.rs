@@ -47,7 +47,12 @@ fn built(file: &str) -> Built {
         Ok(f) => f,
         Err(e) => panic!("{}", e.message),
     };
-    match build(&f, &Options::default(), &LibraryCache::default()) {
+    let b = if file.ends_with(".cir") {
+        armature::spice::build(&f, &Options::default(), &LibraryCache::default())
+    } else {
+        build(&f, &Options::default(), &LibraryCache::default())
+    };
+    match b {
         Ok(b) => b,
         Err(e) => panic!("{:?}", e.iter().map(|x| &x.message).collect::<Vec<_>>()),
     }
@@ -332,6 +337,30 @@ fn operating_points_agree_with_ngspice_op() {
         total += n;
     }
     eprintln!("operating points: {total} values compared");
+}
+
+/// The samples written as SPICE netlists (`samples/spice/`, each with its
+/// mapping): the operating points of the lowered circuits, with the mapped
+/// library parts' device models substituted, agree with ngspice `.op`.
+#[test]
+fn imported_spice_operating_points_agree_with_ngspice_op() {
+    if !ngspice_available() {
+        return;
+    }
+    let mut total = 0;
+    for (file, part) in [
+        ("samples/spice/vent_fan.cir", "Q1"),
+        ("samples/spice/irrigation_valve.cir", "Q2"),
+        ("samples/spice/window_actuator.cir", "N1"),
+        ("samples/spice/conveyor_driver.cir", "N5"),
+        ("samples/spice/alarm_relay_faulty.cir", "Q5"),
+    ] {
+        let n = op_agrees(file, part);
+        eprintln!("{file} {part}: {n} values within 1 %");
+        assert!(n > 0, "{file}: nothing compared");
+        total += n;
+    }
+    eprintln!("imported SPICE operating points: {total} values compared");
 }
 
 #[test]

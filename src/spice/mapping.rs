@@ -424,6 +424,7 @@ pub fn parse(
                         continue;
                     };
                     let mut kind = None;
+                    let mut kind_given = false;
                     let mut part = None;
                     let mut pins = Vec::new();
                     let mut elements = Vec::new();
@@ -433,6 +434,7 @@ pub fn parse(
                         let fpath = yaml::child(&p, &f);
                         match f.as_str() {
                             "kind" => {
+                                kind_given = true;
                                 let k = yaml::scalar_text(fv).unwrap_or_default();
                                 match Kind::from_name(&k) {
                                     Some(x) => kind = Some(x),
@@ -469,7 +471,9 @@ pub fn parse(
                         }
                     }
                     let Some(kind) = kind else {
-                        err(&mut errors, span, format!("`{name}` has no `kind:`"));
+                        if !kind_given {
+                            err(&mut errors, span, format!("`{name}` has no `kind:`"));
+                        }
                         continue;
                     };
                     if key == "instances" {

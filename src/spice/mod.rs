@@ -166,6 +166,8 @@ struct Writer {
     lines: Vec<LineMap>,
     /// Write `# FILE:LINE` after each part (for `import`).
     comments: bool,
+    /// Where each suppression written came from.
+    copies: Vec<Loc>,
 }
 
 impl Writer {
@@ -307,6 +309,9 @@ pub struct Lowered {
     pub warnings: Vec<Finding>,
     /// Notes located in the SPICE files.
     pub notes: Vec<Finding>,
+    /// How many parts each SPICE suppression comment was copied to, by
+    /// (file, offset).
+    pub copies: HashMap<(usize, usize), usize>,
 }
 
 /// What lowering needs besides the deck.
@@ -384,6 +389,7 @@ pub fn lower(file: &Arc<SourceFile>, lo: &LowerOptions) -> Result<Lowered, Vec<F
         text: String::new(),
         lines: Vec::new(),
         comments: lo.comments,
+        copies: Vec::new(),
     };
     let mut warnings = Vec::new();
     let file_of = |i: usize| files.get(i).cloned().unwrap_or_else(|| file.clone());
@@ -659,8 +665,19 @@ pub fn lower(file: &Arc<SourceFile>, lo: &LowerOptions) -> Result<Lowered, Vec<F
             .flat_map(|e| e.nodes.iter().take(2))
             .filter(|(n, _)| count.get(&n.to_ascii_lowercase()) == Some(&1))
             .collect();
-        let chain =
-            ends.len() == 2 && count.values().all(|&c| c <= 2) && count.len() == els.len() + 1;
+        // an inner node of the chain joins its elements only
+        let inner_used = count.iter().any(|(n, &c)| {
+            c == 2
+                && (map.is_ground(n)
+                    || rail_src.iter().any(|r| r.0.eq_ignore_ascii_case(n))
+                    || deck.elements.iter().enumerate().any(|(i, e)| {
+                        !idx.contains(&i) && e.nodes.iter().any(|(m, _)| m.eq_ignore_ascii_case(n))
+                    }))
+        });
+        let chain = ends.len() == 2
+            && count.values().all(|&c| c <= 2)
+            && count.len() == els.len() + 1
+            && !inner_used;
         let (Some(plus), Some(minus), true) = (ends.first(), ends.get(1), chain) else {
             err(
                 &mut errors,
@@ -762,7 +779,16 @@ pub fn lower(file: &Arc<SourceFile>, lo: &LowerOptions) -> Result<Lowered, Vec<F
     for f in &mut warnings {
         f.file = drive.clone();
     }
+    let mut copies: HashMap<(usize, usize), usize> = HashMap::new();
+    for l in &w.copies {
+        if let Some(f) = files.get(l.file) {
+            *copies
+                .entry((Arc::as_ptr(f) as usize, l.span.start()))
+                .or_default() += 1;
+        }
+    }
     Ok(Lowered {
+        copies,
         remap: Remap {
             drive,
             files,
@@ -934,7 +960,9 @@ fn part(
                 }
                 (kind, Some((pname, ploc)), pins)
             }
-            b'V' | b'I' => {
+            // a V source that is no rail is reported with the rails
+            b'V' => return,
+            b'I' => {
                 err(
                     errors,
                     e.name_loc,
@@ -953,6 +981,7 @@ fn part(
         }
     };
     for a in &e.allow {
+        w.copies.push(a.loc);
         w.begin(a.loc);
         w.tok(&format!("# {}", a.text), Some(a.loc));
         w.end();

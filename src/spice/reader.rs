@@ -657,6 +657,7 @@ impl<'m> Reader<'m> {
             nets: HashMap::new(),
             out: Vec::new(),
             stack: Vec::new(),
+            allow: Vec::new(),
             over: false,
         };
         for card in &top {
@@ -1169,6 +1170,8 @@ impl<'m> Reader<'m> {
         via.push((name.clone(), el.line));
         let inner_prefix = format!("{name}.");
         fl.stack.push(def.name.clone());
+        let allows = el.allow.len();
+        fl.allow.extend(el.allow);
         // local `.param` lines first, in order
         for c in &def.body {
             if c.head().eq_ignore_ascii_case(".param") {
@@ -1186,6 +1189,7 @@ impl<'m> Reader<'m> {
             }
             self.element(fl, c, &inner_prefix, &inner_ports, &inner, &via);
         }
+        fl.allow.truncate(fl.allow.len().saturating_sub(allows));
         fl.stack.pop();
     }
 }
@@ -1211,6 +1215,9 @@ struct Flatten<'d> {
     out: Vec<Element>,
     /// subcircuit names being expanded
     stack: Vec<String>,
+    /// suppressions on the instance lines being expanded: they hold for
+    /// every part inside
+    allow: Vec<Allow>,
     over: bool,
 }
 
@@ -1231,7 +1238,8 @@ impl Flatten<'_> {
             .clone()
     }
 
-    fn push(&mut self, el: Element, r: &mut Reader) {
+    fn push(&mut self, mut el: Element, r: &mut Reader) {
+        el.allow.extend(self.allow.iter().cloned());
         if self.out.len() >= r.max_elements {
             let f = r.file(el.line.file);
             r.errors.push(
