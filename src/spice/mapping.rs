@@ -156,7 +156,12 @@ fn strip(seg: &str) -> &str {
     let (Some(&l), Some(&next)) = (b.first(), b.get(1)) else {
         return seg;
     };
-    let rest = &seg[1..];
+    if !l.is_ascii() {
+        return seg;
+    }
+    let Some(rest) = seg.get(1..) else {
+        return seg;
+    };
     let letters = rest.bytes().take_while(u8::is_ascii_uppercase).count();
     let digit_follows = rest.as_bytes().get(letters).is_some_and(u8::is_ascii_digit);
     if next.is_ascii_alphabetic()
@@ -597,5 +602,8 @@ mod tests {
         assert_eq!(strip("RSENSE1"), "RSENSE1");
         assert_eq!(strip("M1"), "M1");
         assert_eq!(strip("XCONN1"), "CONN1");
+        // a first character of several bytes (found by fuzzing)
+        assert_eq!(strip("ÉQ1"), "ÉQ1");
+        assert_eq!(strip("\u{feff}Q1"), "\u{feff}Q1");
     }
 }

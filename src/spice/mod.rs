@@ -291,7 +291,7 @@ pub fn relative(from: &Path, to: &Path) -> PathBuf {
     for _ in common..a.len() {
         r.push("..");
     }
-    for s in &b[common..] {
+    for s in b.iter().skip(common) {
         r.push(s);
     }
     r
@@ -353,7 +353,11 @@ pub fn mapping_for(netlist: &Path, opts: &Options) -> Result<Mapping, Vec<Findin
 
 /// Read, flatten and lower a SPICE file.
 pub fn lower(file: &Arc<SourceFile>, lo: &LowerOptions) -> Result<Lowered, Vec<Finding>> {
+    let tm = std::time::Instant::now();
     let mut map = mapping_for(&file.path, lo.opts)?;
+    if std::env::var_os("ARMATURE_TIMING").is_some() {
+        eprintln!("spice: mapping {:?}", tm.elapsed());
+    }
     // the libraries' parts: kinds for the elements, names for hints
     let mut kinds: HashMap<String, Kind> = HashMap::new();
     let mut errors = Vec::new();
@@ -374,8 +378,16 @@ pub fn lower(file: &Arc<SourceFile>, lo: &LowerOptions) -> Result<Lowered, Vec<F
     }
     map.known_parts = kinds.keys().cloned().collect();
     map.known_parts.sort();
+    let t = std::time::Instant::now();
     let deck =
         reader::Reader::new(&map, lo.opts.root.as_ref(), crate::model::MAX_PARTS).read(file)?;
+    if std::env::var_os("ARMATURE_TIMING").is_some() {
+        eprintln!(
+            "spice: read {:?} ({} elements)",
+            t.elapsed(),
+            deck.elements.len()
+        );
+    }
     let mut files = deck.files.clone();
     let map_file = files.len();
     if let Some(f) = &map.file {
@@ -650,6 +662,15 @@ pub fn lower(file: &Arc<SourceFile>, lo: &LowerOptions) -> Result<Lowered, Vec<F
             &where_,
         );
     }
+    // how many element pins each net has (a load's inner node has two)
+    let mut touches: HashMap<String, usize> = HashMap::new();
+    if !loads.is_empty() {
+        for e in &deck.elements {
+            for (n, _) in &e.nodes {
+                *touches.entry(n.to_ascii_lowercase()).or_default() += 1;
+            }
+        }
+    }
     for (l, idx) in &loads {
         let els: Vec<&Element> = idx.iter().filter_map(|&i| deck.elements.get(i)).collect();
         let Some(first) = els.first() else { continue };
@@ -670,9 +691,7 @@ pub fn lower(file: &Arc<SourceFile>, lo: &LowerOptions) -> Result<Lowered, Vec<F
             c == 2
                 && (map.is_ground(n)
                     || rail_src.iter().any(|r| r.0.eq_ignore_ascii_case(n))
-                    || deck.elements.iter().enumerate().any(|(i, e)| {
-                        !idx.contains(&i) && e.nodes.iter().any(|(m, _)| m.eq_ignore_ascii_case(n))
-                    }))
+                    || touches.get(n.as_str()).copied().unwrap_or(0) > c)
         });
         let chain = ends.len() == 2
             && count.values().all(|&c| c <= 2)
@@ -1099,10 +1118,12 @@ pub fn check_source(file: Arc<SourceFile>, opts: &Options, cache: &LibraryCache)
             config: opts.config.clone(),
         }
     };
+    let t0 = std::time::Instant::now();
     let lowered = match lower(&file, &lo) {
         Ok(l) => l,
         Err(e) => return fail(e, file),
     };
+    let t1 = std::time::Instant::now();
     let mut r =
         crate::check_source_with(lowered.remap.drive.clone(), opts, cache, lowered.warnings);
     for f in &mut r.findings {
@@ -1110,6 +1131,9 @@ pub fn check_source(file: Arc<SourceFile>, opts: &Options, cache: &LibraryCache)
     }
     r.findings.extend(lowered.notes);
     crate::report::sort_findings(&mut r.findings);
+    if std::env::var_os("ARMATURE_TIMING").is_some() {
+        eprintln!("spice: lower {:?}, check {:?}", t1 - t0, t1.elapsed());
+    }
     r.file = file;
     r
 }

@@ -196,6 +196,37 @@ fn item_of(p: Pair<Rule>, base: usize) -> Option<Item> {
     Some(Item { kind, span })
 }
 
+/// A line of plain words (no `=`, parentheses, braces or quotes: most
+/// element lines) read without the grammar, as the grammar would read it:
+/// words separated by blanks and commas. `None` for any other line.
+pub fn plain_words(buf: &str, base: usize) -> Option<Vec<Item>> {
+    let b = buf.as_bytes();
+    if b.iter()
+        .any(|c| matches!(c, b'=' | b'(' | b')' | b'{' | b'}' | b'"' | b'\''))
+    {
+        return None;
+    }
+    let sep = |c: &u8| matches!(c, b' ' | b'\t' | b'\r' | b'\n' | b',');
+    let mut items = Vec::with_capacity(8);
+    let mut i = 0;
+    while i < b.len() {
+        i += b
+            .get(i..)
+            .map_or(0, |r| r.iter().take_while(|c| sep(c)).count());
+        let start = i;
+        i += b
+            .get(i..)
+            .map_or(0, |r| r.iter().take_while(|c| !sep(c)).count());
+        if i > start {
+            items.push(Item {
+                kind: ItemKind::Word(buf.get(start..i)?.to_string()),
+                span: Span::new(base + start, base + i),
+            });
+        }
+    }
+    Some(items)
+}
+
 /// Where an end-of-line comment starts (`;` anywhere, `$` after a blank
 /// and before one or the end), outside double quotes.
 fn comment_start(line: &str) -> Option<usize> {
@@ -206,7 +237,7 @@ fn comment_start(line: &str) -> Option<usize> {
             b'"' => quoted = !quoted,
             b';' if !quoted => return Some(i),
             b'$' if !quoted => {
-                let before = i == 0 || matches!(b[i - 1], b' ' | b'\t');
+                let before = i == 0 || matches!(b.get(i.wrapping_sub(1)), Some(b' ' | b'\t'));
                 let after = matches!(b.get(i + 1), None | Some(b' ' | b'\t' | b'\r'));
                 if before && after {
                     return Some(i);
@@ -305,7 +336,10 @@ impl<'m> Reader<'m> {
             let trimmed = line.trim_start();
             let lead = line.len() - trimmed.len();
             if in_control {
-                if trimmed.len() >= 5 && trimmed[..5].eq_ignore_ascii_case(".endc") {
+                if trimmed
+                    .get(..5)
+                    .is_some_and(|h| h.eq_ignore_ascii_case(".endc"))
+                {
                     in_control = false;
                 }
                 continue;
@@ -319,7 +353,10 @@ impl<'m> Reader<'m> {
                 }
                 continue;
             }
-            if trimmed.len() >= 8 && trimmed[..8].eq_ignore_ascii_case(".control") {
+            if trimmed
+                .get(..8)
+                .is_some_and(|h| h.eq_ignore_ascii_case(".control"))
+            {
                 in_control = true;
                 let loc = Loc {
                     file: fi,
@@ -389,15 +426,21 @@ impl<'m> Reader<'m> {
                 );
                 continue;
             }
-            let items = match SpiceParser::parse(Rule::line, &buf) {
-                Ok(mut pairs) => pairs
-                    .next()
-                    .map(|l| {
-                        l.into_inner()
-                            .filter_map(|p| item_of(p, start))
-                            .collect::<Vec<_>>()
-                    })
-                    .unwrap_or_default(),
+            let parsed = match plain_words(&buf, start) {
+                Some(words) => Ok(words),
+                None => SpiceParser::parse(Rule::line, &buf).map(|mut pairs| {
+                    pairs
+                        .next()
+                        .map(|l| {
+                            l.into_inner()
+                                .filter_map(|p| item_of(p, start))
+                                .collect::<Vec<_>>()
+                        })
+                        .unwrap_or_default()
+                }),
+            };
+            let items = match parsed {
+                Ok(items) => items,
                 Err(e) => {
                     let at = match e.location {
                         pest::error::InputLocation::Pos(p) => p,
@@ -918,7 +961,7 @@ impl<'m> Reader<'m> {
                     }
                     4 => 3,
                     _ => {
-                        if known(words[3].word().unwrap_or("")) {
+                        if known(words.get(3).and_then(|w| w.word()).unwrap_or("")) {
                             3
                         } else {
                             4
