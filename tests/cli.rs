@@ -242,6 +242,8 @@ fn help_of_every_command() {
         &["facts", "--help"][..],
         &["export", "--help"][..],
         &["export", "spice", "--help"][..],
+        &["import", "--help"][..],
+        &["import", "spice", "--help"][..],
     ] {
         let (code, out, err) = stdout(args);
         assert_eq!(code, 0, "{args:?}: {err}");

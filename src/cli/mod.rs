@@ -13,7 +13,7 @@ use std::path::{Path, PathBuf};
 #[command(
     name = "armature",
     version,
-    about = "Design-rule checker for motor, solenoid and relay drive circuits described in .drive netlists"
+    about = "Design-rule checker for motor, solenoid and relay drive circuits described in .drive or SPICE netlists"
 )]
 pub struct Cli {
     #[command(subcommand)]
@@ -22,7 +22,7 @@ pub struct Cli {
 
 #[derive(Subcommand, Debug)]
 pub enum Command {
-    /// Check netlists (files or folders; folders: every *.drive below, sorted)
+    /// Check netlists (.drive or SPICE files, or folders: every *.drive below, sorted)
     Check(CheckArgs),
     /// Explain a rule: what it checks, why, the formula, a bad and a good example
     Explain {
@@ -60,6 +60,8 @@ pub enum Command {
         #[arg(long, value_enum, default_value_t = EdgeArg::Off, requires = "wave")]
         edge: EdgeArg,
         #[command(flatten)]
+        input: InputArgs,
+        #[command(flatten)]
         common: CommonArgs,
     },
 }
@@ -74,6 +76,10 @@ pub enum ImportWhat {
         /// folder) instead of standard output
         #[arg(short = 'o', long, value_name = "FILE")]
         output: Option<PathBuf>,
+        /// The SPICE mapping (YAML) to use instead of the `NAME.map.yaml`
+        /// beside the netlist or the `spice:` section of the configuration
+        #[arg(long, value_name = "FILE")]
+        map: Option<PathBuf>,
         #[command(flatten)]
         common: CommonArgs,
     },
@@ -104,6 +110,8 @@ pub enum ExportWhat {
         #[arg(long = "map-out", value_name = "FILE", requires = "board")]
         map_out: Option<PathBuf>,
         #[command(flatten)]
+        input: InputArgs,
+        #[command(flatten)]
         common: CommonArgs,
     },
 }
@@ -130,20 +138,36 @@ pub struct CommonArgs {
     /// Read paths outside the project root too (for trusted input only)
     #[arg(long = "allow-outside-root")]
     pub allow_outside_root: bool,
-    /// The SPICE mapping (YAML) to use instead of the `spice:` section of
-    /// the configuration
-    #[arg(long, value_name = "FILE")]
+    /// From `InputArgs`, on the commands that read netlists.
+    #[arg(skip)]
     pub map: Option<PathBuf>,
-    /// Read the netlists as this format, whatever their extension
-    /// (default: `.cir .sp .spi .net .cki` are SPICE, the rest `.drive`)
-    #[arg(long, value_enum, value_name = "FORMAT")]
+    #[arg(skip)]
     pub input: Option<InputArg>,
     /// The root, found once per run (every folder of a walk asks for it).
     #[arg(skip)]
     root_found: std::sync::OnceLock<crate::trust::Root>,
 }
 
+/// How netlists are read (the commands that read them).
+#[derive(Args, Debug, Default, Clone)]
+pub struct InputArgs {
+    /// The SPICE mapping (YAML) to use instead of the `NAME.map.yaml`
+    /// beside the netlist or the `spice:` section of the configuration
+    #[arg(long, value_name = "FILE")]
+    pub map: Option<PathBuf>,
+    /// Read the netlists as this format, whatever their extension
+    /// (default: `.cir .sp .spi .net .cki` are SPICE, the rest `.drive`)
+    #[arg(long, value_enum, value_name = "FORMAT")]
+    pub input: Option<InputArg>,
+}
+
 impl CommonArgs {
+    fn with(mut self, i: InputArgs) -> CommonArgs {
+        self.map = i.map;
+        self.input = i.input;
+        self
+    }
+
     /// The project root in force.
     pub fn root(&self) -> crate::trust::Root {
         self.root_found
@@ -174,6 +198,8 @@ pub struct CheckArgs {
     /// Colour in human output
     #[arg(long, value_enum, default_value_t = ColorArg::Auto)]
     pub color: ColorArg,
+    #[command(flatten)]
+    pub input: InputArgs,
     #[command(flatten)]
     pub common: CommonArgs,
 }
@@ -236,7 +262,10 @@ pub fn run(args: Vec<String>) -> i32 {
         }
     };
     match cli.command {
-        Command::Check(a) => check(a),
+        Command::Check(mut a) => {
+            a.common = std::mem::take(&mut a.common).with(std::mem::take(&mut a.input));
+            check(a)
+        }
         Command::Explain { rule, common } => explain(&rule, &common),
         Command::Rules { common } => rules(&common),
         Command::Facts {
@@ -244,16 +273,24 @@ pub fn run(args: Vec<String>) -> i32 {
             format,
             wave,
             edge,
+            input,
             common,
-        } => facts(&path, format, wave.as_deref(), edge, &common),
+        } => facts(&path, format, wave.as_deref(), edge, &common.with(input)),
         Command::Import {
             what:
                 ImportWhat::Spice {
                     file,
                     output,
+                    map,
                     common,
                 },
-        } => import_spice(&file, output.as_deref(), &common),
+        } => {
+            let input = InputArgs {
+                map,
+                input: Some(InputArg::Spice),
+            };
+            import_spice(&file, output.as_deref(), &common.with(input))
+        }
         Command::Export {
             what:
                 ExportWhat::Spice {
@@ -263,9 +300,11 @@ pub fn run(args: Vec<String>) -> i32 {
                     corner,
                     board,
                     map_out,
+                    input,
                     common,
                 },
         } => {
+            let common = common.with(input);
             if board {
                 export_board(&file, map_out.as_deref(), &common)
             } else {

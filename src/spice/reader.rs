@@ -1304,3 +1304,61 @@ impl Flatten<'_> {
         self.out.push(el);
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn flat(items: &[Item]) -> Vec<(String, Span)> {
+        items
+            .iter()
+            .map(|i| match &i.kind {
+                ItemKind::Word(w) => (w.clone(), i.span),
+                other => (format!("{other:?}"), i.span),
+            })
+            .collect()
+    }
+
+    /// The split of plain lines is the grammar's reading of them.
+    #[test]
+    fn plain_lines_split_as_the_grammar_reads_them() {
+        let lines = [
+            "R1 a b 10k",
+            "  M1  d g s b NCH60  ",
+            "V1 vb 0 DC 12",
+            "Q1,c,b,e,NPN",
+            "X1 a b\tc SUB",
+            "D1 a k D$1 model",
+            "R+ a-b c/d 1.5e-3",
+            "ÉR1 a 0 1k",
+            "",
+            "   ",
+        ];
+        let mut n = 0;
+        for l in lines {
+            let fast = plain_words(l, 100);
+            let Some(fast) = fast else {
+                panic!("`{l}` is plain")
+            };
+            let slow: Vec<Item> = match SpiceParser::parse(Rule::line, l) {
+                Ok(mut p) => p
+                    .next()
+                    .map(|x| x.into_inner().filter_map(|q| item_of(q, 100)).collect())
+                    .unwrap_or_default(),
+                Err(e) => panic!("`{l}`: {e}"),
+            };
+            assert_eq!(flat(&fast), flat(&slow), "`{l}`");
+            n += fast.len();
+        }
+        assert!(n > 30);
+        for l in [
+            "R1 a b r=1k",
+            "V1 a 0 PULSE(0 5)",
+            "R1 a b {x}",
+            ".include \"a b\"",
+            "R1 a b 'x'",
+        ] {
+            assert!(plain_words(l, 0).is_none(), "`{l}` is not plain");
+        }
+    }
+}
