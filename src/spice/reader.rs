@@ -693,6 +693,32 @@ impl<'m> Reader<'m> {
         if !self.errors.is_empty() {
             return Err(self.errors);
         }
+        // how many elements the deck flattens to, counted before any is
+        // made: a few lines of nested instances can stand for billions
+        let mut memo: HashMap<String, u64> = HashMap::new();
+        let mut total = 0u64;
+        for card in &top {
+            total = total.saturating_add(self.count(card, &subckts, &mut memo, &mut Vec::new()));
+            if total > self.max_elements as u64 {
+                let loc = card.loc(card.items.first().map_or(card.span, |i| i.span));
+                let f = self.file(loc.file);
+                self.errors.push(
+                    Finding::input(
+                        "limit-exceeded",
+                        &f,
+                        loc.span,
+                        format!(
+                            "the netlist flattens to more than {} elements (with this line, at least {})",
+                            self.max_elements,
+                            crate::units::sig3(total as f64)
+                        ),
+                    )
+                    .label("the expansion crosses the limit here")
+                    .help("split the design into several netlists"),
+                );
+                return Err(self.errors);
+            }
+        }
         let mut fl = Flatten {
             subckts: &subckts,
             models: &models,
@@ -719,6 +745,56 @@ impl<'m> Reader<'m> {
             models,
             notes: self.notes,
         })
+    }
+
+    /// The elements a line stands for once flattened (saturating; a
+    /// subcircuit that contains itself counts once, and is reported when
+    /// flattened).
+    fn count(
+        &self,
+        card: &Card,
+        subckts: &HashMap<String, Subckt>,
+        memo: &mut HashMap<String, u64>,
+        stack: &mut Vec<String>,
+    ) -> u64 {
+        let head = card.head();
+        if !head
+            .as_bytes()
+            .first()
+            .is_some_and(|c| c.eq_ignore_ascii_case(&b'X'))
+        {
+            return u64::from(!head.starts_with('.'));
+        }
+        let sub = card
+            .items
+            .iter()
+            .skip(1)
+            .take_while(|i| i.word().is_some())
+            .filter(|i| !i.word().is_some_and(|t| t.eq_ignore_ascii_case("params:")))
+            .last()
+            .and_then(Item::word)
+            .unwrap_or("")
+            .to_ascii_lowercase();
+        if self.map.model(&sub).is_some() || self.map.instance(head).is_some() {
+            return 1;
+        }
+        if let Some(&n) = memo.get(&sub) {
+            return n;
+        }
+        let Some(def) = subckts.get(&sub) else {
+            return 1;
+        };
+        if stack.contains(&sub) || stack.len() > MAX_SUBCKT_DEPTH {
+            return 1;
+        }
+        stack.push(sub.clone());
+        let mut n = 0u64;
+        for c in &def.body {
+            n = n.saturating_add(self.count(c, subckts, memo, stack));
+        }
+        stack.pop();
+        memo.insert(sub, n);
+        n
     }
 
     fn model(&mut self, card: &Card, scope: &Scope) -> Option<Model> {
