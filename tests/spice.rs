@@ -629,3 +629,56 @@ fn input_overrides_the_extension() {
     ]);
     assert_eq!(code, 2);
 }
+
+/// The mapping may sit under `spice:` in `armature.yaml`, its paths
+/// relative to the configuration; facts of the board are those of the
+/// sample.
+#[test]
+fn the_mapping_in_the_configuration_is_used() {
+    let dir = scratch("config");
+    let boards = dir.join("boards");
+    let _ = std::fs::create_dir_all(&boards);
+    if let Err(e) = std::fs::copy(
+        "samples/spice/alarm_relay_faulty.cir",
+        boards.join("alarm.cir"),
+    ) {
+        panic!("{e}");
+    }
+    if let Err(e) = std::fs::copy("samples/parts/greenhouse.yaml", dir.join("greenhouse.yaml")) {
+        panic!("{e}");
+    }
+    let map = std::fs::read_to_string("samples/spice/alarm_relay_faulty.map.yaml")
+        .unwrap_or_default()
+        .replace("../parts/greenhouse.yaml", "greenhouse.yaml");
+    let indented: Vec<String> = map.lines().map(|l| format!("  {l}")).collect();
+    write(
+        &dir.join("armature.yaml"),
+        &format!("fail-on: error\nspice:\n{}\n", indented.join("\n")),
+    );
+    let (c1, f1) = check(&["samples/spice/alarm_relay_faulty.cir"]);
+    let (c2, f2) = check(&[&boards.join("alarm.cir").to_string_lossy()]);
+    assert_eq!(c1, c2);
+    assert_eq!(verdicts(&f1), verdicts(&f2));
+    // an error in the section is located in the configuration
+    write(
+        &dir.join("armature.yaml"),
+        "spice:\n  rails:\n    VBAT: {maxx: 14.4V}\n",
+    );
+    let (code, f) = check(&[&boards.join("alarm.cir").to_string_lossy()]);
+    assert_eq!(code, 2);
+    let Some(e) = f.iter().find(|x| x["rule"] == "mapping-error") else {
+        panic!("{f:?}")
+    };
+    assert!(
+        e["file"].as_str().unwrap_or("").ends_with("armature.yaml"),
+        "{e}"
+    );
+    assert_eq!(e["line"], 3);
+    assert!(
+        e["message"]
+            .as_str()
+            .unwrap_or("")
+            .contains("did you mean `max`"),
+        "{e}"
+    );
+}
