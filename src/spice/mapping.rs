@@ -4,12 +4,12 @@
 //! `armature.yaml`, or a file of its own given with `--map`.
 
 use super::MAPPING_ERROR as CODE;
+use crate::fasthash::FastMap as HashMap;
 use crate::finding::Finding;
 use crate::model::kinds::Kind;
 use crate::source::{SourceFile, Span};
 use crate::yaml::{self, YamlDoc};
 use serde_yaml::Value;
-use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 use std::sync::Arc;
 

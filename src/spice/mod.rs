@@ -15,6 +15,7 @@ pub mod mapping;
 pub mod number;
 pub mod reader;
 
+use crate::fasthash::FastMap as HashMap;
 use crate::finding::{Finding, Related, Severity};
 use crate::model::kinds::{Kind, PinSpec};
 use crate::model::library::LibraryCache;
@@ -22,7 +23,6 @@ use crate::source::{SourceFile, Span};
 use crate::{FileResult, Options};
 use mapping::{MapSource, Mapping, Val};
 use reader::Element;
-use std::collections::HashMap;
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 use std::sync::Arc;
@@ -359,7 +359,7 @@ pub fn lower(file: &Arc<SourceFile>, lo: &LowerOptions) -> Result<Lowered, Vec<F
         eprintln!("spice: mapping {:?}", tm.elapsed());
     }
     // the libraries' parts: kinds for the elements, names for hints
-    let mut kinds: HashMap<String, Kind> = HashMap::new();
+    let mut kinds: HashMap<String, Kind> = HashMap::default();
     let mut errors = Vec::new();
     let lib_paths: Vec<(PathBuf, String)> = map
         .libraries
@@ -663,7 +663,7 @@ pub fn lower(file: &Arc<SourceFile>, lo: &LowerOptions) -> Result<Lowered, Vec<F
         );
     }
     // how many element pins each net has (a load's inner node has two)
-    let mut touches: HashMap<String, usize> = HashMap::new();
+    let mut touches: HashMap<String, usize> = HashMap::default();
     if !loads.is_empty() {
         for e in &deck.elements {
             for (n, _) in &e.nodes {
@@ -675,7 +675,7 @@ pub fn lower(file: &Arc<SourceFile>, lo: &LowerOptions) -> Result<Lowered, Vec<F
         let els: Vec<&Element> = idx.iter().filter_map(|&i| deck.elements.get(i)).collect();
         let Some(first) = els.first() else { continue };
         // the ends of the series chain: nodes used once
-        let mut count: HashMap<String, usize> = HashMap::new();
+        let mut count: HashMap<String, usize> = HashMap::default();
         for e in &els {
             for (n, _) in e.nodes.iter().take(2) {
                 *count.entry(n.to_ascii_lowercase()).or_default() += 1;
@@ -798,7 +798,7 @@ pub fn lower(file: &Arc<SourceFile>, lo: &LowerOptions) -> Result<Lowered, Vec<F
     for f in &mut warnings {
         f.file = drive.clone();
     }
-    let mut copies: HashMap<(usize, usize), usize> = HashMap::new();
+    let mut copies: HashMap<(usize, usize), usize> = HashMap::default();
     for l in &w.copies {
         if let Some(f) = files.get(l.file) {
             *copies

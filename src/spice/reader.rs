@@ -5,12 +5,12 @@
 use super::mapping::Mapping;
 use super::number::{self, Scope};
 use super::{ERROR, Loc};
+use crate::fasthash::{FastMap as HashMap, FastSet as HashSet};
 use crate::finding::{Finding, Severity};
 use crate::source::{SourceFile, Span};
 use pest::Parser;
 use pest::iterators::Pair;
 use pest_derive::Parser;
-use std::collections::{HashMap, HashSet};
 use std::path::{Path, PathBuf};
 use std::sync::Arc;
 
@@ -274,7 +274,7 @@ impl<'m> Reader<'m> {
             notes: Vec::new(),
             root,
             map,
-            noted: HashSet::new(),
+            noted: HashSet::default(),
             max_elements,
         }
     }
@@ -589,8 +589,8 @@ impl<'m> Reader<'m> {
         let canon = std::fs::canonicalize(&file.path).unwrap_or_else(|_| file.path.clone());
         self.cards_of(0, true, None, &mut vec![canon], &mut cards);
         // definitions, models, parameters, the top-level elements
-        let mut subckts: HashMap<String, Subckt> = HashMap::new();
-        let mut models: HashMap<String, Model> = HashMap::new();
+        let mut subckts: HashMap<String, Subckt> = HashMap::default();
+        let mut models: HashMap<String, Model> = HashMap::default();
         let mut global = Scope::new();
         let mut globals: HashSet<String> = ["0".to_string()].into_iter().collect();
         for g in &self.map.ground {
@@ -695,7 +695,7 @@ impl<'m> Reader<'m> {
         }
         // how many elements the deck flattens to, counted before any is
         // made: a few lines of nested instances can stand for billions
-        let mut memo: HashMap<String, u64> = HashMap::new();
+        let mut memo: HashMap<String, u64> = HashMap::default();
         let mut total = 0u64;
         for card in &top {
             total = total.saturating_add(self.count(card, &subckts, &mut memo, &mut Vec::new()));
@@ -723,7 +723,7 @@ impl<'m> Reader<'m> {
             subckts: &subckts,
             models: &models,
             globals: &globals,
-            nets: HashMap::new(),
+            nets: HashMap::default(),
             out: Vec::new(),
             stack: Vec::new(),
             allow: Vec::new(),
@@ -733,7 +733,7 @@ impl<'m> Reader<'m> {
             if fl.over {
                 break;
             }
-            self.element(&mut fl, card, "", &HashMap::new(), &global, &[]);
+            self.element(&mut fl, card, "", &HashMap::default(), &global, &[]);
         }
         if !self.errors.is_empty() {
             return Err(self.errors);
@@ -1247,7 +1247,7 @@ impl<'m> Reader<'m> {
             return;
         }
         // ports, then parameters: defaults, overridden by the instance's
-        let mut inner_ports = HashMap::new();
+        let mut inner_ports = HashMap::default();
         for (p, it) in def.ports.iter().zip(nodes.iter()) {
             inner_ports.insert(
                 p.to_ascii_lowercase(),
