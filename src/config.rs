@@ -289,21 +289,14 @@ pub fn parse(
                     "`fail-on` is error or warning".into(),
                 )),
             },
-            _ => {
-                let hint = crate::suggest::did_you_mean(&key, KEYS.iter().copied());
-                errors.push(
-                    e(
-                        doc.key_span(&yaml::child("", &key)),
-                        format!("unknown key `{key}` in {FILE_NAME}"),
-                    )
-                    .label("unknown key")
-                    .help(if hint.is_empty() {
-                        format!("keys: {}", KEYS.join(", "))
-                    } else {
-                        hint
-                    }),
-                );
-            }
+            _ => errors.push(yaml::unknown_key(
+                CODE,
+                file,
+                doc.key_span(&yaml::child("", &key)),
+                &key,
+                FILE_NAME,
+                KEYS,
+            )),
         }
     }
     if errors.is_empty() {

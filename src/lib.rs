@@ -76,6 +76,18 @@ pub struct FileResult {
 }
 
 impl FileResult {
+    /// A file that could not be checked: its input errors, sorted.
+    pub fn failed(file: Arc<SourceFile>, mut findings: Vec<Finding>, opts: &Options) -> FileResult {
+        report::sort_findings(&mut findings);
+        FileResult {
+            file,
+            findings,
+            suppressed: 0,
+            settings: opts.settings.clone(),
+            config: opts.config.clone(),
+        }
+    }
+
     pub fn input_error(&self) -> bool {
         self.findings.iter().any(|f| f.class == Class::Input)
     }
@@ -263,16 +275,7 @@ pub fn check_source_with(
     extra: Vec<Finding>,
 ) -> FileResult {
     match build(&file, opts, cache) {
-        Err(mut findings) => {
-            report::sort_findings(&mut findings);
-            FileResult {
-                file,
-                findings,
-                suppressed: 0,
-                settings: opts.settings.clone(),
-                config: opts.config.clone(),
-            }
-        }
+        Err(findings) => FileResult::failed(file, findings, opts),
         Ok(mut b) => {
             let mut findings = std::mem::take(&mut b.analysis.early);
             findings.extend(extra);
@@ -310,19 +313,11 @@ pub fn check_text(name: &str, text: &str, opts: &Options) -> FileResult {
 
 /// Read and check a file on disk.
 pub fn check_path(path: &Path, opts: &Options, cache: &LibraryCache) -> FileResult {
-    if spice::reads_as_spice(path, opts) {
-        return spice::check_path(path, opts, cache);
-    }
     let shown = shown_path(path);
     match read_netlist(path, &shown) {
+        Ok(file) if spice::reads_as_spice(path, opts) => spice::check_source(file, opts, cache),
         Ok(file) => check_source(file, opts, cache),
-        Err(f) => FileResult {
-            file: f.file.clone(),
-            findings: vec![f],
-            suppressed: 0,
-            settings: opts.settings.clone(),
-            config: opts.config.clone(),
-        },
+        Err(f) => FileResult::failed(f.file.clone(), vec![f], opts),
     }
 }
 

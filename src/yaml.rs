@@ -244,6 +244,25 @@ pub fn quantity_text(doc: &YamlDoc, path: &str, v: &Value) -> Result<Option<Stri
     Ok(scalar_text(v))
 }
 
+/// An unknown key: located, with the closest known key or the list.
+pub fn unknown_key(
+    code: &str,
+    file: &Arc<SourceFile>,
+    span: Span,
+    key: &str,
+    place: &str,
+    keys: &[&str],
+) -> Finding {
+    let hint = crate::suggest::did_you_mean(key, keys.iter().copied());
+    Finding::input(code, file, span, format!("unknown key `{key}` in {place}"))
+        .label("unknown key")
+        .help(if hint.is_empty() {
+            format!("keys: {}", keys.join(", "))
+        } else {
+            hint
+        })
+}
+
 /// What a YAML value is, for messages.
 pub fn describe(v: &Value) -> &'static str {
     match v {

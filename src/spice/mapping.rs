@@ -561,21 +561,14 @@ pub fn parse(
                 }
             }
             _ => {
-                let hint = crate::suggest::did_you_mean(&key, KEYS.iter().copied());
-                errors.push(
-                    Finding::input(
-                        CODE,
-                        file,
-                        kspan,
-                        format!("unknown key `{key}` in the SPICE mapping"),
-                    )
-                    .label("unknown key")
-                    .help(if hint.is_empty() {
-                        format!("keys: {}", KEYS.join(", "))
-                    } else {
-                        hint
-                    }),
-                );
+                errors.push(yaml::unknown_key(
+                    CODE,
+                    file,
+                    kspan,
+                    &key,
+                    "the SPICE mapping",
+                    KEYS,
+                ));
             }
         }
     }

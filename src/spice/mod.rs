@@ -1107,21 +1107,10 @@ pub fn check_source(file: Arc<SourceFile>, opts: &Options, cache: &LibraryCache)
         base: None,
         comments: false,
     };
-    let fail = |findings: Vec<Finding>, file: Arc<SourceFile>| {
-        let mut findings = findings;
-        crate::report::sort_findings(&mut findings);
-        FileResult {
-            file,
-            findings,
-            suppressed: 0,
-            settings: opts.settings.clone(),
-            config: opts.config.clone(),
-        }
-    };
     let t0 = std::time::Instant::now();
     let lowered = match lower(&file, &lo) {
         Ok(l) => l,
-        Err(e) => return fail(e, file),
+        Err(e) => return FileResult::failed(file, e, opts),
     };
     let t1 = std::time::Instant::now();
     let mut r =
@@ -1158,21 +1147,6 @@ pub fn build(
         }
         errs
     })
-}
-
-/// Read and check a SPICE file on disk.
-pub fn check_path(path: &Path, opts: &Options, cache: &LibraryCache) -> FileResult {
-    let shown = crate::shown_path(path);
-    match crate::read_netlist(path, &shown) {
-        Ok(file) => check_source(file, opts, cache),
-        Err(f) => FileResult {
-            file: f.file.clone(),
-            findings: vec![f],
-            suppressed: 0,
-            settings: opts.settings.clone(),
-            config: opts.config.clone(),
-        },
-    }
 }
 
 /// The `.drive` text of a SPICE file (for `import spice`).
