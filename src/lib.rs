@@ -21,6 +21,7 @@ pub mod config;
 pub mod fasthash;
 pub mod finding;
 pub mod graph;
+pub mod lsp;
 pub mod model;
 pub mod report;
 pub mod settings;

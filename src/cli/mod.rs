@@ -46,6 +46,9 @@ pub enum Command {
         #[command(subcommand)]
         what: ImportWhat,
     },
+    /// Serve diagnostics, hover, definitions, completion and fixes to an
+    /// editor (the Language Server Protocol over stdio)
+    Lsp,
     /// Print the computed quantities of every part of a netlist
     Facts {
         /// A netlist, or a folder (every netlist below it, sorted)
@@ -267,6 +270,7 @@ pub fn run(args: Vec<String>) -> i32 {
             check(a)
         }
         Command::Explain { rule, common } => explain(&rule, &common),
+        Command::Lsp => crate::lsp::serve(std::io::stdin().lock(), std::io::stdout().lock()),
         Command::Rules { common } => rules(&common),
         Command::Facts {
             path,
@@ -474,6 +478,18 @@ fn profile(config: Option<&Path>, common: &CommonArgs) -> Profile {
         }
     }
     Profile { opts, errors }
+}
+
+/// The options in force for a file (its configuration, the project
+/// root), as `check` uses them; the configuration's errors otherwise.
+pub fn options_for(file: &Path) -> Result<Options, Vec<Finding>> {
+    let common = CommonArgs::default();
+    let p = profile(config_for(file, &common).as_deref(), &common);
+    if p.errors.is_empty() {
+        Ok(p.opts)
+    } else {
+        Err(p.errors)
+    }
 }
 
 /// The options for one file, or `None` after printing the configuration's
