@@ -489,6 +489,8 @@ fn error(id: &Value, code: i64, message: &str) -> Value {
 pub fn serve(input: impl BufRead, output: impl Write) -> i32 {
     let mut r = input;
     let mut w = output;
+    // an edit changes a few groups: the others keep their solutions
+    crate::analysis::remember_solutions(true);
     let mut s = Server {
         docs: HashMap::new(),
         cache: LibraryCache::default(),

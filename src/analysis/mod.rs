@@ -260,6 +260,30 @@ fn pin_drives(c: &Circuit, grp: &Group) -> Vec<solve::PinDrive> {
         .collect()
 }
 
+/// Whether solutions are kept from one analysis to the next (the
+/// language server re-checks a file after every edit: only the groups
+/// an edit changed are solved again). A group's solution depends on its
+/// key alone (see `reuse`), so a remembered one is the one a new solve
+/// would give.
+static REMEMBER: std::sync::atomic::AtomicBool = std::sync::atomic::AtomicBool::new(false);
+/// The most solutions remembered; beyond, the memory starts afresh.
+const MAX_REMEMBERED: usize = 20_000;
+
+type Solved = std::sync::Mutex<HashMap<Vec<u64>, Arc<GroupSolution>>>;
+
+fn solved() -> &'static Solved {
+    static S: std::sync::OnceLock<Solved> = std::sync::OnceLock::new();
+    S.get_or_init(Default::default)
+}
+
+/// Keep solutions across analyses (for a long-running process).
+pub fn remember_solutions(on: bool) {
+    REMEMBER.store(on, std::sync::atomic::Ordering::Relaxed);
+    if !on && let Ok(mut m) = solved().lock() {
+        m.clear();
+    }
+}
+
 pub fn analyze(c: &Circuit, g: &CircuitGraph, s: &Settings) -> Analysis {
     analyze_with(c, g, s, true)
 }
@@ -298,14 +322,23 @@ pub fn analyze_with(c: &Circuit, g: &CircuitGraph, s: &Settings, reuse: bool) ->
     let mut index: HashMap<Vec<u64>, usize> = HashMap::default();
     let mut which: Vec<usize> = Vec::with_capacity(groups.len());
     let mut unique: Vec<usize> = Vec::new();
+    let mut unique_keys: Vec<Option<Vec<u64>>> = Vec::new();
+    let remember = REMEMBER.load(std::sync::atomic::Ordering::Relaxed);
     for (gi, k) in keys.into_iter().enumerate() {
         let next = unique.len();
-        let u = match k {
-            Some(k) => *index.entry(k).or_insert(next),
+        let u = match &k {
+            Some(k) => match index.get(k) {
+                Some(&u) => u,
+                None => {
+                    index.insert(k.clone(), next);
+                    next
+                }
+            },
             None => next,
         };
         if u == next {
             unique.push(gi);
+            unique_keys.push(if remember { k } else { None });
         }
         which.push(u);
     }
@@ -313,12 +346,28 @@ pub fn analyze_with(c: &Circuit, g: &CircuitGraph, s: &Settings, reuse: bool) ->
     let t_keys = t0.elapsed();
     let reps: Vec<(Arc<GroupSolution>, GroupAcc)> = unique
         .par_iter()
-        .map(|&gi| {
+        .zip(unique_keys.par_iter())
+        .map(|(&gi, key)| {
             let grp = &groups[gi];
-            let nl = netlist::build(c, grp);
-            let sol = solve::solve(nl, &drives[gi], &solve::rated(c, &grp.parts));
+            let known = key
+                .as_ref()
+                .and_then(|k| solved().lock().ok()?.get(k).cloned());
+            let sol = match known {
+                Some(sol) => sol,
+                None => {
+                    let nl = netlist::build(c, grp);
+                    let sol = Arc::new(solve::solve(nl, &drives[gi], &solve::rated(c, &grp.parts)));
+                    if let (Some(k), Ok(mut m)) = (key, solved().lock()) {
+                        if m.len() >= MAX_REMEMBERED {
+                            m.clear();
+                        }
+                        m.insert(k.clone(), sol.clone());
+                    }
+                    sol
+                }
+            };
             let acc = read_group(c, gi, grp, &sol);
-            (Arc::new(sol), acc)
+            (sol, acc)
         })
         .collect();
     let t_solve = t0.elapsed();
