@@ -300,6 +300,18 @@ impl Server {
         let Some((_, word)) = word_at(&file.text, at) else {
             return Value::Null;
         };
+        // a `library "path"` line: the file
+        let lt = file.line_text(file.line_index(at)).trim_start();
+        if !refs
+            && lt.starts_with("library")
+            && let Some(p) = lt.split('"').nth(1)
+        {
+            let target = file
+                .path
+                .parent()
+                .map_or_else(|| PathBuf::from(p), |d| d.join(p));
+            return json!({"uri": path_to_uri(&target), "range": {"start": {"line": 0, "character": 0}, "end": {"line": 0, "character": 0}}});
+        }
         let Some(b) = self.built(&file) else {
             return Value::Null;
         };
@@ -407,6 +419,78 @@ impl Server {
         Value::Array(items)
     }
 
+    /// A finding's fix, where it is mechanical: a reversed diode's pins
+    /// swapped; a pull-down (pull-up for a p-channel or pnp) on a floating
+    /// gate or base.
+    fn fix(&self, file: &Arc<SourceFile>, uri: &str, rule: &str, d: &Value) -> Option<Value> {
+        let b = self.built(file)?;
+        let c = &b.circuit;
+        let parts: Vec<&str> = d["data"]["parts"]
+            .as_array()?
+            .iter()
+            .filter_map(Value::as_str)
+            .collect();
+        let edit = |title: String, edits: Vec<Value>| json!({"title": title, "kind": "quickfix", "isPreferred": true, "diagnostics": [d], "edit": {"changes": {uri: edits}}});
+        match rule {
+            "freewheel-reversed" => {
+                let p = parts
+                    .iter()
+                    .filter_map(|n| c.part_id(n))
+                    .map(|i| c.part(i))
+                    .find(|p| p.kind.is_diode())?;
+                let pin = |name: &str| p.pins.iter().find(|x| x.name == name);
+                let (a, k) = (pin("a")?, pin("k")?);
+                let net = |x: &crate::model::Pin| c.nets.get(x.net).map(|n| n.name.clone());
+                let (na, nk) = (net(a)?, net(k)?);
+                Some(edit(
+                    format!(
+                        "Turn `{}` round (anode on `{nk}`, cathode on `{na}`)",
+                        p.reference
+                    ),
+                    vec![
+                        json!({"range": range(file, a.span), "newText": format!("a: {nk}")}),
+                        json!({"range": range(file, k.span), "newText": format!("k: {na}")}),
+                    ],
+                ))
+            }
+            "gate-floating" => {
+                let p = parts
+                    .first()
+                    .and_then(|n| c.part_id(n))
+                    .map(|i| c.part(i))?;
+                let (_, ctl, rpin) = p.kind.switch_pins()?;
+                let net = |pin: &str| {
+                    p.pins
+                        .iter()
+                        .find(|x| x.name == pin)
+                        .and_then(|x| c.nets.get(x.net))
+                        .map(|n| n.name.clone())
+                };
+                let (g, s) = (net(ctl)?, net(rpin)?);
+                let mut name = format!("R{}_OFF", p.reference);
+                while c.part_id(&name).is_some() {
+                    name.push('X');
+                }
+                let line = file.line_index(p.span.start());
+                let (what, dir) = if p.kind.is_p_type() {
+                    ("pull-up", "off")
+                } else {
+                    ("pull-down", "off")
+                };
+                let text = format!(
+                    "resistor {name} ({g}, {s}) 47k  # {what}: holds `{}` {dir} while the controller is in reset\n",
+                    p.reference
+                );
+                let at = json!({"line": line, "character": 0});
+                Some(edit(
+                    format!("Add a 47 kΩ {what} from `{g}` to `{s}`"),
+                    vec![json!({"range": {"start": at, "end": at}, "newText": text})],
+                ))
+            }
+            _ => None,
+        }
+    }
+
     fn code_actions(&self, uri: &str, params: &Value) -> Value {
         let Some(file) = self.file(uri) else {
             return json!([]);
@@ -431,6 +515,9 @@ impl Server {
             let new = format!(
                 "{indent}{comment} armature: allow {rule} -- <why the finding does not apply>\n"
             );
+            if let Some(a) = self.fix(&file, uri, rule, d) {
+                actions.push(a);
+            }
             actions.push(json!({
                 "title": format!("Allow `{rule}` on this line (with a reason)"),
                 "kind": "quickfix",
@@ -471,14 +558,32 @@ fn diagnostic(f: &Finding, doc: &Arc<SourceFile>) -> Value {
             json!({"location": {"uri": path_to_uri(&file.path), "range": range(file, r.span)}, "message": r.label})
         })
         .collect();
-    json!({
+    let mut d = json!({
         "range": rng,
         "severity": severity,
         "code": f.rule,
         "source": "armature",
         "message": message,
         "relatedInformation": related,
-    })
+        "data": {"parts": f.parts},
+    });
+    if let Some(href) = explain_uri(&f.rule) {
+        d["codeDescription"] = json!({"href": href});
+    }
+    d
+}
+
+/// The rule's `explain` page, written once to a folder of the system's
+/// temporary files, as a `file:` URI the editor can open.
+fn explain_uri(id: &str) -> Option<String> {
+    let page = crate::checks::explain_page(id)?;
+    let dir = std::env::temp_dir().join(format!("armature-explain-{}", env!("CARGO_PKG_VERSION")));
+    let path = dir.join(format!("{id}.md"));
+    if !path.is_file() {
+        std::fs::create_dir_all(&dir).ok()?;
+        std::fs::write(&path, page).ok()?;
+    }
+    Some(path_to_uri(&path))
 }
 
 fn error(id: &Value, code: i64, message: &str) -> Value {

@@ -219,6 +219,11 @@ fn an_editor_session() {
         .filter_map(|i| i["label"].as_str())
         .collect();
     assert_eq!(labels, ["d", "g", "s"], "{comp}");
+    c.notify(
+        "textDocument/didChange",
+        json!({"textDocument": {"uri": uri, "version": 4}, "contentChanges": [{"text": fixed}]}),
+    );
+    let _ = c.diagnostics(&uri);
 
     // a code action: the suppression, with a place for the reason
     let act = c.request(
@@ -236,6 +241,91 @@ fn an_editor_session() {
         "# armature: allow freewheel-missing -- <why the finding does not apply>\n"
     );
 
+    // the rule's explain page, linked from the diagnostic
+    let href = fw["codeDescription"]["href"].as_str().unwrap_or("");
+    let page = std::fs::read_to_string(href.trim_start_matches("file://")).unwrap_or_default();
+    assert!(page.starts_with("freewheel-missing"), "{href}: {page}");
+
+    // a mechanical fix: the pull-down a floating gate needs
+    let gf = d2
+        .iter()
+        .find(|x| x["code"] == "gate-floating" && x["data"]["parts"][0] == "Q6")
+        .cloned()
+        .unwrap_or_default();
+    let act = c.request(
+        "textDocument/codeAction",
+        json!({"textDocument": {"uri": uri}, "range": gf["range"], "context": {"diagnostics": [gf]}}),
+    );
+    let fix = &act["result"][0];
+    assert!(
+        fix["title"].as_str().unwrap_or("").contains("pull-down"),
+        "{act}"
+    );
+    let e = &fix["edit"]["changes"][uri.as_str()][0];
+    let at = e["range"]["start"]["line"].as_u64().unwrap_or(0) as usize;
+    let mut lines: Vec<String> = fixed.lines().map(str::to_string).collect();
+    lines.insert(
+        at,
+        e["newText"].as_str().unwrap_or("").trim_end().to_string(),
+    );
+    let pulled = lines.join("\n") + "\n";
+    assert!(
+        pulled.contains("resistor RQ6_OFF (HEAT_G, GND) 47k"),
+        "{pulled}"
+    );
+    c.notify(
+        "textDocument/didChange",
+        json!({"textDocument": {"uri": uri, "version": 5}, "contentChanges": [{"text": pulled}]}),
+    );
+    let d3 = c.diagnostics(&uri);
+    assert!(
+        !d3.iter()
+            .any(|x| x["code"] == "gate-floating" && x["data"]["parts"][0] == "Q6"),
+        "{:?}",
+        codes(&d3)
+    );
+
+    // another: a freewheel diode fitted backwards, turned round
+    let rpath = std::fs::canonicalize("tests/fixtures/rules/freewheel-reversed/bad.drive")
+        .unwrap_or_default();
+    let ruri = format!("file://{}", rpath.display());
+    let rtext = std::fs::read_to_string(&rpath).unwrap_or_default();
+    c.notify(
+        "textDocument/didOpen",
+        json!({"textDocument": {"uri": ruri, "languageId": "drive", "version": 1, "text": rtext}}),
+    );
+    let rd = c.diagnostics(&ruri);
+    let rev = rd
+        .iter()
+        .find(|x| x["code"] == "freewheel-reversed")
+        .cloned()
+        .unwrap_or_default();
+    let act = c.request(
+        "textDocument/codeAction",
+        json!({"textDocument": {"uri": ruri}, "range": rev["range"], "context": {"diagnostics": [rev]}}),
+    );
+    let edits = act["result"][0]["edit"]["changes"][ruri.as_str()]
+        .as_array()
+        .cloned()
+        .unwrap_or_default();
+    assert_eq!(edits.len(), 2, "{act}");
+    let mut turned = rtext.clone();
+    for (from, e) in [("a: VBAT", &edits[0]), ("k: SW", &edits[1])] {
+        turned = turned.replacen(
+            from,
+            &format!("@{}", e["newText"].as_str().unwrap_or("")),
+            1,
+        );
+    }
+    let turned = turned.replace('@', "");
+    assert!(turned.contains("diode D1 (a: SW, k: VBAT)"), "{turned}");
+    c.notify(
+        "textDocument/didChange",
+        json!({"textDocument": {"uri": ruri, "version": 2}, "contentChanges": [{"text": turned}]}),
+    );
+    let rd2 = c.diagnostics(&ruri);
+    assert!(codes(&rd2).is_empty(), "{:?}", codes(&rd2));
+
     // malformed input and unknown methods: protocol errors, and the
     // session goes on
     c.raw("{not json");
@@ -245,14 +335,9 @@ fn an_editor_session() {
     assert_eq!(u["error"]["code"], -32601, "{u}");
     c.raw(&json!({"jsonrpc": "2.0", "id": 99}).to_string());
     let _ = c.wait(|m| m["id"] == 99 && m["error"]["code"] == -32600);
-    c.notify(
-        "textDocument/didChange",
-        json!({"textDocument": {"uri": uri, "version": 4}, "contentChanges": [{"text": fixed}]}),
-    );
-    let _ = c.diagnostics(&uri);
     let h2 = c.request(
         "textDocument/hover",
-        json!({"textDocument": {"uri": uri}, "position": {"line": line, "character": 7}}),
+        json!({"textDocument": {"uri": uri}, "position": {"line": line + 1, "character": 7}}),
     );
     assert!(h2["result"]["contents"]["value"].is_string());
 

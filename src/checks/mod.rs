@@ -211,6 +211,30 @@ pub fn suggest_rule(id: &str) -> String {
     }
 }
 
+/// The page `armature explain ID` prints for a built-in rule, an input
+/// error or note, or a part kind.
+pub fn explain_page(id: &str) -> Option<String> {
+    if let Some(kind) = crate::model::kinds::Kind::from_name(id) {
+        return Some(crate::model::reference::kind_page(kind));
+    }
+    if let Some((other, what, fix)) = OTHER_IDS.iter().find(|(i, _, _)| *i == id) {
+        return Some(format!("{other}\n\n{what}\n\n{fix}\n"));
+    }
+    let m = find(id)?.meta;
+    let mut s = format!(
+        "{} ({}, default {})\n\n{}\n\n{}\n",
+        m.id,
+        m.family,
+        m.severity,
+        m.summary,
+        m.docs.trim_end()
+    );
+    if m.hazard {
+        s.push_str(&format!("\n{}\n", crate::cli::CAUTION));
+    }
+    Some(s)
+}
+
 pub fn find(id: &str) -> Option<Rule> {
     registry().into_iter().find(|r| r.meta.id == id)
 }

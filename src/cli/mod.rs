@@ -844,7 +844,7 @@ pub fn emit(
     Ok(())
 }
 
-const CAUTION: &str = "Caution: armature supports a design review; it does not replace one. Motor drives store energy and \
+pub const CAUTION: &str = "Caution: armature supports a design review; it does not replace one. Motor drives store energy and \
 can overheat, burn or injure. Verify on the bench with current-limited supplies, and defer to local codes, the \
 parts' data sheets and licensed practice.";
 
@@ -897,23 +897,9 @@ fn explain(id: &str, common: &CommonArgs) -> i32 {
         }
         None => id,
     };
-    if let Some(kind) = crate::model::kinds::Kind::from_name(id) {
-        print!("{}", crate::model::reference::kind_page(kind));
-        return 0;
-    }
-    if let Some((other, what, fix)) = crate::checks::OTHER_IDS.iter().find(|(i, _, _)| *i == id) {
-        println!("{other}\n\n{what}\n\n{fix}");
-        return 0;
-    }
-    match crate::checks::find(id) {
-        Some(r) => {
-            let m = r.meta;
-            println!("{} ({}, default {})\n", m.id, m.family, m.severity);
-            println!("{}\n", m.summary);
-            println!("{}", m.docs.trim_end());
-            if m.hazard {
-                println!("\n{CAUTION}");
-            }
+    match crate::checks::explain_page(id) {
+        Some(page) => {
+            print!("{page}");
             0
         }
         None => {
