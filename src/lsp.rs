@@ -586,14 +586,55 @@ fn explain_uri(id: &str) -> Option<String> {
     Some(path_to_uri(&path))
 }
 
+/// The errors of a YAML file armature reads: a configuration, a SPICE
+/// mapping, a rule file or a parts library (told apart by name and by
+/// their top-level keys).
+fn yaml_findings(f: &Arc<SourceFile>) -> Vec<Finding> {
+    let name = f
+        .path
+        .file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_default();
+    let root = crate::trust::Root::find(f.path.parent().unwrap_or(Path::new(".")));
+    let top = |k: &str| f.text.lines().any(|l| l.starts_with(&format!("{k}:")));
+    let errs = if name == crate::config::FILE_NAME {
+        crate::config::parse(f, Some(&root)).err()
+    } else if name.ends_with(".map.yaml") {
+        crate::spice::mapping::parse(f, "", Some(&root)).err()
+    } else if top("rules") {
+        crate::team::load(f).err()
+    } else if top("parts") {
+        crate::model::library::load_library(f).err()
+    } else {
+        None
+    };
+    errs.unwrap_or_default()
+        .into_iter()
+        .filter(|e| e.file.path == f.path)
+        .collect()
+}
+
 fn error(id: &Value, code: i64, message: &str) -> Value {
     json!({"jsonrpc": "2.0", "id": id, "error": {"code": code, "message": message}})
 }
 
 /// Serve until `exit` or the end of input; the process's exit code.
-pub fn serve(input: impl BufRead, output: impl Write) -> i32 {
-    let mut r = input;
+pub fn serve(input: impl BufRead + Send + 'static, output: impl Write) -> i32 {
     let mut w = output;
+    // messages are read on a thread of their own, so that a burst of
+    // edits is seen whole: only the last edit of a file is checked
+    let (tx, rx) = std::sync::mpsc::channel::<Incoming>();
+    std::thread::spawn(move || {
+        let mut r = input;
+        loop {
+            let m = read_message(&mut r);
+            let end = matches!(m, Incoming::End);
+            if tx.send(m).is_err() || end {
+                return;
+            }
+        }
+    });
+    let mut queue: std::collections::VecDeque<Incoming> = std::collections::VecDeque::new();
     // an edit changes a few groups: the others keep their solutions
     crate::analysis::remember_solutions(true);
     let mut s = Server {
@@ -602,7 +643,11 @@ pub fn serve(input: impl BufRead, output: impl Write) -> i32 {
         shutdown: false,
     };
     loop {
-        let msg = match read_message(&mut r) {
+        let next = match queue.pop_front() {
+            Some(m) => m,
+            None => rx.recv().unwrap_or(Incoming::End),
+        };
+        let msg = match next {
             Incoming::End => return i32::from(!s.shutdown),
             Incoming::Malformed(why) => {
                 send(
@@ -690,7 +735,15 @@ pub fn serve(input: impl BufRead, output: impl Write) -> i32 {
                 // a library or configuration changed: re-check every open netlist
                 let yaml = path.extension().is_some_and(|e| e == "yaml" || e == "yml");
                 if yaml {
-                    s.docs.remove(&uri);
+                    // the file's own errors, as the loader of what it is reads it
+                    if let Some(f) = s.docs.remove(&uri) {
+                        let own = yaml_findings(&f);
+                        let list: Vec<Value> = own.iter().map(|x| diagnostic(x, &f)).collect();
+                        send(
+                            &mut w,
+                            &json!({"jsonrpc": "2.0", "method": "textDocument/publishDiagnostics", "params": {"uri": uri, "diagnostics": list}}),
+                        );
+                    }
                     s.cache = LibraryCache::default();
                     let uris: Vec<String> = s.docs.keys().cloned().collect();
                     for u in uris {
@@ -701,6 +754,23 @@ pub fn serve(input: impl BufRead, output: impl Write) -> i32 {
                         );
                     }
                 } else if s.docs.contains_key(&uri) {
+                    // debounce: a later change of the same file, already
+                    // waiting, makes this check moot
+                    while let Ok(m) = rx.try_recv() {
+                        queue.push_back(m);
+                    }
+                    let superseded = queue.iter().any(|m| match m {
+                        Incoming::Message(v) => {
+                            matches!(
+                                v["method"].as_str(),
+                                Some("textDocument/didChange" | "textDocument/didClose")
+                            ) && v["params"]["textDocument"]["uri"] == uri.as_str()
+                        }
+                        _ => false,
+                    });
+                    if superseded {
+                        continue;
+                    }
                     let d = s.diagnostics(&uri);
                     send(
                         &mut w,

@@ -326,6 +326,43 @@ fn an_editor_session() {
     let rd2 = c.diagnostics(&ruri);
     assert!(codes(&rd2).is_empty(), "{:?}", codes(&rd2));
 
+    // a parts library opened in the editor: its own errors, located
+    let lib_path = std::fs::canonicalize("samples/parts/greenhouse.yaml").unwrap_or_default();
+    let lib_uri = format!("file://{}", lib_path.display());
+    let lib = std::fs::read_to_string(&lib_path).unwrap_or_default();
+    let broken = lib.replacen("    vds_max: 60V\n", "    vds_maxx: 60V\n", 1);
+    assert_ne!(broken, lib);
+    let bad_line = broken
+        .lines()
+        .position(|l| l.contains("vds_maxx"))
+        .unwrap_or(0);
+    c.notify(
+        "textDocument/didOpen",
+        json!({"textDocument": {"uri": lib_uri, "languageId": "yaml", "version": 1, "text": broken}}),
+    );
+    let ld = c.diagnostics(&lib_uri);
+    assert!(
+        ld.iter()
+            .any(|x| x["code"] == "library-error" && x["range"]["start"]["line"] == bad_line),
+        "{ld:?}"
+    );
+    // the open netlists are checked again (the library on disk is as it was)
+    let again = c.diagnostics(&uri);
+    assert!(!again.is_empty());
+
+    // a burst of edits: the last text is what the last diagnostics describe
+    for (v, t) in [(10, format!("{fixed}nmos Q9 (")), (11, fixed.clone())] {
+        c.notify(
+            "textDocument/didChange",
+            json!({"textDocument": {"uri": uri, "version": v}, "contentChanges": [{"text": t}]}),
+        );
+    }
+    let mut last = c.diagnostics(&uri);
+    while codes(&last).contains(&"parse-error".to_string()) {
+        last = c.diagnostics(&uri);
+    }
+    assert_eq!(codes(&last), cs2);
+
     // malformed input and unknown methods: protocol errors, and the
     // session goes on
     c.raw("{not json");

@@ -270,7 +270,10 @@ pub fn run(args: Vec<String>) -> i32 {
             check(a)
         }
         Command::Explain { rule, common } => explain(&rule, &common),
-        Command::Lsp => crate::lsp::serve(std::io::stdin().lock(), std::io::stdout().lock()),
+        Command::Lsp => crate::lsp::serve(
+            std::io::BufReader::new(std::io::stdin()),
+            std::io::stdout().lock(),
+        ),
         Command::Rules { common } => rules(&common),
         Command::Facts {
             path,
