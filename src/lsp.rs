@@ -76,6 +76,19 @@ fn send(w: &mut impl Write, v: &Value) {
     let _ = w.flush();
 }
 
+#[cfg(test)]
+mod tests {
+    #[test]
+    fn e12_rounds_up() {
+        let close = |a: f64, b: f64| (a - b).abs() < 1e-6 * b;
+        assert!(close(super::e12_at_least(47e3), 47e3));
+        assert!(close(super::e12_at_least(48e3), 56e3));
+        assert!(close(super::e12_at_least(100e3), 100e3));
+        assert!(close(super::e12_at_least(83e3), 100e3));
+        assert!(close(super::e12_at_least(1.0), 1.0));
+    }
+}
+
 /// `file:///a%20b/c.drive` → `/a b/c.drive`.
 pub fn uri_to_path(uri: &str) -> Option<PathBuf> {
     let rest = uri.strip_prefix("file://")?;
@@ -467,6 +480,30 @@ impl Server {
                         .map(|n| n.name.clone())
                 };
                 let (g, s) = (net(ctl)?, net(rpin)?);
+                // the value: 47 kΩ (common practice for 10 kΩ–100 kΩ), or
+                // at least 100 × the series resistor between pin and gate,
+                // rounded up to an E12 value, so that it does not divide
+                // the drive (the bound `gate-pulldown-strong` holds)
+                let gate = p.pins.iter().find(|x| x.name == ctl).map(|x| x.net);
+                let series = c
+                    .parts
+                    .iter()
+                    .filter(|q| {
+                        q.kind == Kind::Resistor && q.pins.iter().any(|x| Some(x.net) == gate)
+                    })
+                    .filter(|q| {
+                        q.pins.iter().all(|x| {
+                            c.nets
+                                .get(x.net)
+                                .is_some_and(|n| matches!(n.kind, crate::model::NetKind::Signal))
+                        })
+                    })
+                    .filter_map(|q| q.num("value"))
+                    .fold(0.0f64, f64::max);
+                let ohms = e12_at_least((100.0 * series).max(47e3));
+                let value = crate::units::format_si(ohms, crate::units::Dimension::Resistance)
+                    .replace(' ', "")
+                    .replace('Ω', "");
                 let mut name = format!("R{}_OFF", p.reference);
                 while c.part_id(&name).is_some() {
                     name.push('X');
@@ -478,12 +515,15 @@ impl Server {
                     ("pull-down", "off")
                 };
                 let text = format!(
-                    "resistor {name} ({g}, {s}) 47k  # {what}: holds `{}` {dir} while the controller is in reset\n",
+                    "resistor {name} ({g}, {s}) {value}  # {what}: holds `{}` {dir} while the controller is in reset\n",
                     p.reference
                 );
                 let at = json!({"line": line, "character": 0});
                 Some(edit(
-                    format!("Add a 47 kΩ {what} from `{g}` to `{s}`"),
+                    format!(
+                        "Add a {} {what} from `{g}` to `{s}`",
+                        crate::units::format_si(ohms, crate::units::Dimension::Resistance)
+                    ),
                     vec![json!({"range": {"start": at, "end": at}, "newText": text})],
                 ))
             }
@@ -612,6 +652,24 @@ fn yaml_findings(f: &Arc<SourceFile>) -> Vec<Finding> {
         .into_iter()
         .filter(|e| e.file.path == f.path)
         .collect()
+}
+
+/// The smallest E12 value (IEC 60063) at or above `x`.
+fn e12_at_least(x: f64) -> f64 {
+    const E12: [f64; 12] = [1.0, 1.2, 1.5, 1.8, 2.2, 2.7, 3.3, 3.9, 4.7, 5.6, 6.8, 8.2];
+    if !(x.is_finite() && x > 0.0) {
+        return 47e3;
+    }
+    let decade = 10f64.powf(x.log10().floor());
+    for m in [1.0, 10.0] {
+        for v in E12 {
+            let r = v * decade * m;
+            if r >= x * (1.0 - 1e-9) {
+                return r;
+            }
+        }
+    }
+    x
 }
 
 fn error(id: &Value, code: i64, message: &str) -> Value {
