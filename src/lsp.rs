@@ -76,19 +76,6 @@ fn send(w: &mut impl Write, v: &Value) {
     let _ = w.flush();
 }
 
-#[cfg(test)]
-mod tests {
-    #[test]
-    fn e12_rounds_up() {
-        let close = |a: f64, b: f64| (a - b).abs() < 1e-6 * b;
-        assert!(close(super::e12_at_least(47e3), 47e3));
-        assert!(close(super::e12_at_least(48e3), 56e3));
-        assert!(close(super::e12_at_least(100e3), 100e3));
-        assert!(close(super::e12_at_least(83e3), 100e3));
-        assert!(close(super::e12_at_least(1.0), 1.0));
-    }
-}
-
 /// `file:///a%20b/c.drive` → `/a b/c.drive`.
 pub fn uri_to_path(uri: &str) -> Option<PathBuf> {
     let rest = uri.strip_prefix("file://")?;
@@ -502,8 +489,7 @@ impl Server {
                     .fold(0.0f64, f64::max);
                 let ohms = e12_at_least((100.0 * series).max(47e3));
                 let value = crate::units::format_si(ohms, crate::units::Dimension::Resistance)
-                    .replace(' ', "")
-                    .replace('Ω', "");
+                    .replace([' ', 'Ω'], "");
                 let mut name = format!("R{}_OFF", p.reference);
                 while c.part_id(&name).is_some() {
                     name.push('X');
@@ -881,5 +867,18 @@ pub fn serve(input: impl BufRead + Send + 'static, output: impl Write) -> i32 {
                 }
             }
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    #[test]
+    fn e12_rounds_up() {
+        let close = |a: f64, b: f64| (a - b).abs() < 1e-6 * b;
+        assert!(close(super::e12_at_least(47e3), 47e3));
+        assert!(close(super::e12_at_least(48e3), 56e3));
+        assert!(close(super::e12_at_least(100e3), 100e3));
+        assert!(close(super::e12_at_least(83e3), 100e3));
+        assert!(close(super::e12_at_least(1.0), 1.0));
     }
 }
