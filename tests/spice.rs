@@ -682,3 +682,42 @@ fn the_mapping_in_the_configuration_is_used() {
         "{e}"
     );
 }
+
+/// Net names as schematic tools write them: `/SW`, `+5V`, `N#1`,
+/// `Net-(Q1-Pad1)` (parentheses inside a name are part of it).
+#[test]
+fn schematic_net_names_are_read_whole() {
+    let dir = scratch("names");
+    let p = dir.join("n.cir");
+    write(
+        &p,
+        "names\nV1 +5V 0 5\nR1 +5V N#1 1k\nR2 N#1 /SW 1k\nR3 /SW Net-(Q1-Pad1) 1k\nR4 Net-(Q1-Pad1) 0 1k\n",
+    );
+    let out = match armature()
+        .args(["import", "spice", "--no-config"])
+        .arg(&p)
+        .output()
+    {
+        Ok(o) => o,
+        Err(e) => panic!("{e}"),
+    };
+    let text = String::from_utf8_lossy(&out.stdout);
+    for want in [
+        "rail \"+5V\" 5V",
+        "resistor R1 (\"+5V\", \"N#1\") 1000ohm",
+        "resistor R3 (\"/SW\", \"Net-(Q1-Pad1)\") 1000ohm",
+    ] {
+        assert!(
+            text.contains(want),
+            "missing `{want}`:\n{text}{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+    }
+    let (code, f) = check(&["--no-config", &p.to_string_lossy()]);
+    assert_eq!(code, 0, "{f:?}");
+    // `PWL(0,1)` is a group, not a name: R4 has no value it can use
+    write(&p, "names\nV1 +5V 0 5\nR4 +5V 0 PWL(0,1)\n");
+    let (code, f) = check(&["--no-config", &p.to_string_lossy()]);
+    assert_eq!(code, 2, "{f:?}");
+    assert!(f.iter().any(|x| x["line"] == 3), "{f:?}");
+}
