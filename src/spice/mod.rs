@@ -925,18 +925,26 @@ fn part(
                             &pname,
                             map.known_parts.iter().map(String::as_str),
                         );
-                        err(
-                            errors,
-                            ploc,
-                            format!(
-                                "`{}` is an instance of `{model}`, mapped to `{pname}`, which no loaded library has",
-                                e.name
-                            ),
-                            if hint.is_empty() {
-                                "add the part to a library the mapping lists".into()
+                        // the rule a `.drive` line naming a missing part
+                        // breaks; an input error here, as without the
+                        // part's kind the instance cannot be lowered
+                        errors.push(
+                            Finding::input(
+                                "part-not-in-library",
+                                &file_of(ploc.file),
+                                ploc.span,
+                                format!(
+                                    "`{}` is an instance of `{model}`, mapped to `{pname}`, which no loaded library has",
+                                    e.name
+                                ),
+                            )
+                            .label("no such part")
+                            .help(if hint.is_empty() {
+                                "add the part to a library the mapping lists".to_string()
                             } else {
                                 hint
-                            },
+                            })
+                            .parts([shown.clone()]),
                         );
                         return;
                     }
