@@ -150,8 +150,15 @@ fn range(file: &SourceFile, span: crate::source::Span) -> Value {
     json!({"start": position(file, span.start()), "end": position(file, span.end().max(span.start()))})
 }
 
+/// A document text and what was built from it (`None`: it does not build).
+type Built = (Arc<SourceFile>, Option<std::rc::Rc<crate::Built>>);
+
 struct Server {
     docs: HashMap<String, Arc<SourceFile>>,
+    /// The last build of each document text (hover, definitions,
+    /// completion and fixes ask for it one after another), with the text
+    /// it was built from: a new text is a new `SourceFile`.
+    builds: std::cell::RefCell<HashMap<String, Built>>,
     cache: LibraryCache,
     shutdown: bool,
 }
@@ -201,9 +208,21 @@ impl Server {
         json!({"uri": uri, "diagnostics": list})
     }
 
-    fn built(&self, file: &Arc<SourceFile>) -> Option<crate::Built> {
+    fn built(&self, file: &Arc<SourceFile>) -> Option<std::rc::Rc<crate::Built>> {
+        let key = file.path.to_string_lossy().into_owned();
+        if let Some((f, b)) = self.builds.borrow().get(&key)
+            && Arc::ptr_eq(f, file)
+        {
+            return b.clone();
+        }
         let opts = options_for(&file.path);
-        crate::build(file, &opts, &self.cache).ok()
+        let b = crate::build(file, &opts, &self.cache)
+            .ok()
+            .map(std::rc::Rc::new);
+        self.builds
+            .borrow_mut()
+            .insert(key, (file.clone(), b.clone()));
+        b
     }
 
     fn hover(&self, uri: &str, line: usize, ch: usize) -> Value {
@@ -683,6 +702,7 @@ pub fn serve(input: impl BufRead + Send + 'static, output: impl Write) -> i32 {
     crate::analysis::remember_solutions(true);
     let mut s = Server {
         docs: HashMap::new(),
+        builds: Default::default(),
         cache: LibraryCache::default(),
         shutdown: false,
     };
@@ -789,6 +809,7 @@ pub fn serve(input: impl BufRead + Send + 'static, output: impl Write) -> i32 {
                         );
                     }
                     s.cache = LibraryCache::default();
+                    s.builds.borrow_mut().clear();
                     let uris: Vec<String> = s.docs.keys().cloned().collect();
                     for u in uris {
                         let d = s.diagnostics(&u);

@@ -8,7 +8,7 @@ use crate::fasthash::FastMap as HashMap;
 use crate::finding::Finding;
 use crate::model::kinds::Kind;
 use crate::source::{SourceFile, Span};
-use crate::yaml::{self, YamlDoc};
+use crate::yaml;
 use serde_yaml::Value;
 use std::path::{Path, PathBuf};
 use std::sync::Arc;
@@ -80,8 +80,6 @@ pub struct Mapping {
     pub ambient: Option<Val>,
     /// Part names of the loaded libraries (for did-you-mean).
     pub known_parts: Vec<String>,
-    /// Where the mapping's keys start in the YAML (`spice/` or ``).
-    pub prefix: String,
 }
 
 const KEYS: &[&str] = &[
@@ -111,9 +109,14 @@ impl Mapping {
     }
 
     pub fn instance(&self, name: &str) -> Option<&InstanceMap> {
+        if self.instances.is_empty() {
+            return None;
+        }
         self.instances.get(&name.to_ascii_lowercase()).or_else(|| {
-            let shown = self.shown(name);
-            self.instances.get(&shown.to_ascii_lowercase())
+            if !self.strip_letter {
+                return None;
+            }
+            self.instances.get(&self.shown(name).to_ascii_lowercase())
         })
     }
 
@@ -132,19 +135,6 @@ impl Mapping {
             return name.to_string();
         }
         name.split('.').map(strip).collect::<Vec<_>>().join(".")
-    }
-
-    /// Where a key is written (the file's start without a file).
-    pub fn span(&self, doc: &YamlDoc, path: &str) -> Span {
-        doc.key_span(&self.path(path))
-    }
-
-    fn path(&self, rest: &str) -> String {
-        if self.prefix.is_empty() {
-            rest.to_string()
-        } else {
-            format!("{}/{rest}", self.prefix)
-        }
     }
 }
 
@@ -202,9 +192,16 @@ pub fn parse(
     root: Option<&crate::trust::Root>,
 ) -> Result<Mapping, Vec<Finding>> {
     let doc = yaml::parse(file, CODE).map_err(|e| vec![e])?;
+    // a key's path in the YAML: under `spice/` in a configuration
+    let fp = |rest: &str| -> String {
+        if prefix.is_empty() {
+            rest.to_string()
+        } else {
+            format!("{prefix}/{rest}")
+        }
+    };
     let mut m = Mapping::defaults();
     m.file = Some(file.clone());
-    m.prefix = prefix.to_string();
     let mut errors = Vec::new();
     let top = if prefix.is_empty() {
         Some(&doc.root)
@@ -221,19 +218,12 @@ pub fn parse(
             return Err(vec![Finding::input(
                 CODE,
                 file,
-                m.span(&doc, ""),
+                doc.key_span(&fp("")),
                 format!(
                     "the SPICE mapping is a mapping of keys; found {}",
                     yaml::describe(other)
                 ),
             )]);
-        }
-    };
-    let fp = |rest: &str| -> String {
-        if prefix.is_empty() {
-            rest.to_string()
-        } else {
-            format!("{prefix}/{rest}")
         }
     };
     let base = file

@@ -44,6 +44,12 @@ pub struct Loc {
     pub span: Span,
 }
 
+/// Whether `ARMATURE_TIMING` asks for the front end's stage times.
+fn timing() -> bool {
+    static ON: std::sync::OnceLock<bool> = std::sync::OnceLock::new();
+    *ON.get_or_init(|| std::env::var_os("ARMATURE_TIMING").is_some())
+}
+
 /// The file extensions read as SPICE (any case).
 pub const EXTENSIONS: &[&str] = &["cir", "sp", "spi", "net", "cki"];
 
@@ -355,7 +361,7 @@ pub fn mapping_for(netlist: &Path, opts: &Options) -> Result<Mapping, Vec<Findin
 pub fn lower(file: &Arc<SourceFile>, lo: &LowerOptions) -> Result<Lowered, Vec<Finding>> {
     let tm = std::time::Instant::now();
     let mut map = mapping_for(&file.path, lo.opts)?;
-    if std::env::var_os("ARMATURE_TIMING").is_some() {
+    if timing() {
         eprintln!("spice: mapping {:?}", tm.elapsed());
     }
     // the libraries' parts: kinds for the elements, names for hints
@@ -381,7 +387,7 @@ pub fn lower(file: &Arc<SourceFile>, lo: &LowerOptions) -> Result<Lowered, Vec<F
     let t = std::time::Instant::now();
     let deck =
         reader::Reader::new(&map, lo.opts.root.as_ref(), crate::model::MAX_PARTS).read(file)?;
-    if std::env::var_os("ARMATURE_TIMING").is_some() {
+    if timing() {
         eprintln!(
             "spice: read {:?} ({} elements)",
             t.elapsed(),
@@ -459,19 +465,21 @@ pub fn lower(file: &Arc<SourceFile>, lo: &LowerOptions) -> Result<Lowered, Vec<F
         w.end();
     }
     // loads: their elements are not parts of their own
-    let by_name: HashMap<String, usize> = deck
-        .elements
-        .iter()
-        .enumerate()
-        .map(|(i, e)| (e.name.to_ascii_lowercase(), i))
-        .collect();
-    let find = |n: &str| -> Option<usize> {
-        by_name.get(&n.to_ascii_lowercase()).copied().or_else(|| {
-            deck.elements
-                .iter()
-                .position(|e| map.shown(&e.name).eq_ignore_ascii_case(n))
-        })
-    };
+    // elements by name as written, then (with `strip_letter`) as shown
+    let mut by_name: HashMap<String, usize> = HashMap::default();
+    if !map.loads.is_empty() {
+        for (i, e) in deck.elements.iter().enumerate() {
+            by_name.insert(e.name.to_ascii_lowercase(), i);
+        }
+        if map.strip_letter {
+            for (i, e) in deck.elements.iter().enumerate() {
+                by_name
+                    .entry(map.shown(&e.name).to_ascii_lowercase())
+                    .or_insert(i);
+            }
+        }
+    }
+    let find = |n: &str| -> Option<usize> { by_name.get(&n.to_ascii_lowercase()).copied() };
     let mut in_load = vec![false; deck.elements.len()];
     let mut loads = Vec::new();
     for l in &map.loads {
@@ -1128,7 +1136,7 @@ pub fn check_source(file: Arc<SourceFile>, opts: &Options, cache: &LibraryCache)
     }
     r.findings.extend(lowered.notes);
     crate::report::sort_findings(&mut r.findings);
-    if std::env::var_os("ARMATURE_TIMING").is_some() {
+    if timing() {
         eprintln!("spice: lower {:?}, check {:?}", t1 - t0, t1.elapsed());
     }
     r.file = file;

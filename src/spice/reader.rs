@@ -497,7 +497,6 @@ impl<'m> Reader<'m> {
                 _ => out.push(card),
             }
         }
-        let _ = in_section;
     }
 
     fn include(&mut self, card: &Card, loc: Loc, stack: &mut Vec<PathBuf>, out: &mut Vec<Card>) {
