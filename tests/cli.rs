@@ -438,3 +438,49 @@ fn configuration_quantities_are_decimal() {
     );
     assert!(!text.contains(":4:"), "a decimal value is fine: {text}");
 }
+
+#[test]
+fn compact_help_follows_each_finding_as_a_note_line() {
+    let (_, compact, _) = stdout(&[
+        "check",
+        "samples/alarm_relay_faulty.drive",
+        "--format",
+        "compact",
+    ]);
+    let (_, json, _) = stdout(&[
+        "check",
+        "samples/alarm_relay_faulty.drive",
+        "--format",
+        "json",
+    ]);
+    let v: serde_json::Value = serde_json::from_str(&json).unwrap_or_default();
+    let findings = v["findings"].as_array().cloned().unwrap_or_default();
+    assert!(findings.len() >= 5);
+    let lines: Vec<&str> = compact.lines().collect();
+    let mut i = 0;
+    for f in &findings {
+        let head = format!(
+            "{}:{}:{}: ",
+            f["file"].as_str().unwrap_or(""),
+            f["line"],
+            f["column"]
+        );
+        let rule = f["rule"].as_str().unwrap_or("");
+        let sev = f["severity"].as_str().unwrap_or("");
+        let msg = f["message"].as_str().unwrap_or("");
+        assert_eq!(
+            lines.get(i).copied().unwrap_or(""),
+            format!("{head}{sev}[{rule}]: {msg}")
+        );
+        i += 1;
+        if let Some(help) = f["help"].as_str() {
+            let one: Vec<&str> = help.split_whitespace().collect();
+            assert_eq!(
+                lines.get(i).copied().unwrap_or(""),
+                format!("{head}note[{rule}]: {}", one.join(" "))
+            );
+            i += 1;
+        }
+    }
+    assert_eq!(i, lines.len(), "no other lines");
+}

@@ -796,6 +796,9 @@ pub fn emit(
         Format::Compact => {
             for f in &all {
                 writeln!(out, "{}", report::compact(f))?;
+                if let Some(h) = report::compact_help(f) {
+                    writeln!(out, "{h}")?;
+                }
             }
         }
         Format::Json => {

@@ -31,6 +31,27 @@ pub fn compact(f: &Finding) -> String {
     )
 }
 
+/// The help of a finding as the line after its compact line, in the same
+/// form with severity `note` (as compilers write their notes), so that an
+/// editor's quick-fix list shows it under the finding. One line: line
+/// breaks in the help become spaces. `None` for a finding without help.
+pub fn compact_help(f: &Finding) -> Option<String> {
+    let help = f.help.as_deref()?.trim();
+    if help.is_empty() {
+        return None;
+    }
+    let (l, c) = f.line_col();
+    let one_line: String = help.split_whitespace().collect::<Vec<_>>().join(" ");
+    Some(format!(
+        "{}:{}:{}: note[{}]: {}",
+        escape(&f.file.name),
+        l,
+        c,
+        escape(&f.rule),
+        escape(&one_line)
+    ))
+}
+
 fn needs_escape(s: &str) -> bool {
     matches!(escape(s), Cow::Owned(_))
 }
