@@ -63,6 +63,8 @@ pub struct Options {
     /// Read every file as this format (`--input`), whatever its name
     /// (`None`: by extension).
     pub input: Option<spice::Input>,
+    /// Keep what the HTML report draws of each finding (`FileResult::scenes`).
+    pub scenes: bool,
 }
 
 /// The outcome of checking one file.
@@ -74,6 +76,8 @@ pub struct FileResult {
     pub settings: Settings,
     /// The configuration file in force for it, if any.
     pub config: Option<String>,
+    /// What the HTML report draws of its findings (with `Options::scenes`).
+    pub scenes: Option<Box<report::html::scene::Scenes>>,
 }
 
 impl FileResult {
@@ -86,6 +90,7 @@ impl FileResult {
             suppressed: 0,
             settings: opts.settings.clone(),
             config: opts.config.clone(),
+            scenes: None,
         }
     }
 
@@ -295,12 +300,16 @@ pub fn check_source_with(
             }
             let (mut findings, suppressed) = suppress::apply(&b.circuit, findings);
             report::sort_findings(&mut findings);
+            let scenes = opts
+                .scenes
+                .then(|| Box::new(report::html::scene::collect(&b, &findings)));
             FileResult {
                 file,
                 findings,
                 suppressed,
                 settings: b.settings,
                 config: opts.config.clone(),
+                scenes,
             }
         }
     }

@@ -24,6 +24,9 @@ pub struct Cli {
 pub enum Command {
     /// Check netlists (.drive or SPICE files, or folders: every *.drive below, sorted)
     Check(CheckArgs),
+    /// Write an HTML report of a check: every finding with its sub-circuit
+    /// drawn, its switches' simulated edges plotted and its parts' facts
+    Report(ReportArgs),
     /// Explain a rule: what it checks, why, the formula, a bad and a good example
     Explain {
         /// Rule id, for example `freewheel-missing`
@@ -207,12 +210,30 @@ pub struct CheckArgs {
     pub common: CommonArgs,
 }
 
+#[derive(Args, Debug)]
+pub struct ReportArgs {
+    /// Files or folders to check (default: the current folder)
+    pub paths: Vec<PathBuf>,
+    /// The page to write (one self-contained HTML file)
+    #[arg(short = 'o', long, value_name = "FILE")]
+    pub output: PathBuf,
+    /// The level that makes the exit code 1
+    #[arg(long = "fail-on", value_enum)]
+    pub fail_on: Option<FailOn>,
+    #[command(flatten)]
+    pub input: InputArgs,
+    #[command(flatten)]
+    pub common: CommonArgs,
+}
+
 #[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]
 pub enum FormatArg {
     Human,
     Compact,
     Json,
     Sarif,
+    /// the page of `armature report`, on standard output
+    Html,
 }
 
 #[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]
@@ -267,7 +288,19 @@ pub fn run(args: Vec<String>) -> i32 {
     match cli.command {
         Command::Check(mut a) => {
             a.common = std::mem::take(&mut a.common).with(std::mem::take(&mut a.input));
-            check(a)
+            check(a, None)
+        }
+        Command::Report(r) => {
+            let a = CheckArgs {
+                paths: r.paths,
+                format: FormatArg::Html,
+                fail_on: r.fail_on,
+                max_findings: None,
+                color: ColorArg::Never,
+                input: InputArgs::default(),
+                common: r.common.with(r.input),
+            };
+            check(a, Some(&r.output))
         }
         Command::Explain { rule, common } => explain(&rule, &common),
         Command::Lsp => crate::lsp::serve(
@@ -558,7 +591,8 @@ fn config_in(dir: &Path, canonical: Option<&Path>, common: &CommonArgs) -> Optio
     crate::config::discover(dir, Some(&common.root()))
 }
 
-fn check(a: CheckArgs) -> i32 {
+/// `check`, or `report` when `to` names the page to write.
+fn check(a: CheckArgs, to: Option<&Path>) -> i32 {
     let paths = if a.paths.is_empty() {
         vec![PathBuf::from(".")]
     } else {
@@ -639,7 +673,11 @@ fn check(a: CheckArgs) -> i32 {
     // the configurations load in parallel (a tree may hold thousands)
     let loaded: Vec<Profile> = configs
         .par_iter()
-        .map(|c| profile(c.as_deref(), &a.common))
+        .map(|c| {
+            let mut p = profile(c.as_deref(), &a.common);
+            p.opts.scenes = a.format == FormatArg::Html;
+            p
+        })
         .collect();
     profiles.extend(configs.into_iter().zip(loaded));
     if files.is_empty() && a.common.config.is_some() {
@@ -661,6 +699,7 @@ fn check(a: CheckArgs) -> i32 {
                 suppressed: 0,
                 settings: p.opts.settings.clone(),
                 config: p.opts.config.clone(),
+                scenes: None,
             });
         }
     }
@@ -679,6 +718,7 @@ fn check(a: CheckArgs) -> i32 {
         FormatArg::Compact => Format::Compact,
         FormatArg::Json => Format::Json,
         FormatArg::Sarif => Format::Sarif,
+        FormatArg::Html => Format::Html,
     };
     let color = match a.color {
         ColorArg::Always => true,
@@ -688,6 +728,14 @@ fn check(a: CheckArgs) -> i32 {
                 && std::io::stdout().is_terminal()
         }
     };
+    if let Some(path) = to {
+        let page = report::html::page(&results);
+        if let Err(e) = std::fs::write(path, page) {
+            eprintln!("error: cannot write `{}`: {e}", path.display());
+            return 2;
+        }
+        return crate::exit_code(&results, fail_on);
+    }
     let stdout = std::io::stdout();
     let mut out = std::io::BufWriter::new(stdout.lock());
     let mut team: Vec<std::sync::Arc<crate::team::TeamRule>> = Vec::new();
@@ -747,6 +795,7 @@ fn error_result(p: &Path, msg: &str) -> FileResult {
         suppressed: 0,
         settings: crate::settings::Settings::default(),
         config: None,
+        scenes: None,
     }
 }
 
@@ -792,6 +841,9 @@ pub fn emit(
             }
             writeln!(out, "{line}")?;
             writeln!(out, "configuration: {}", configs_line(results))?;
+        }
+        Format::Html => {
+            write!(out, "{}", report::html::page(results))?;
         }
         Format::Compact => {
             for f in &all {

@@ -1,5 +1,6 @@
 //! Rendering findings: human (miette), compact, JSON and SARIF.
 
+pub mod html;
 pub mod human;
 pub mod json;
 pub mod sarif;
@@ -15,6 +16,7 @@ pub enum Format {
     Compact,
     Json,
     Sarif,
+    Html,
 }
 
 /// `file:line:col: severity[rule]: message`, safe for a terminal.
