@@ -237,6 +237,8 @@ fn help_of_every_command() {
     for args in [
         &["--help"][..],
         &["check", "--help"][..],
+        &["report", "--help"][..],
+        &["lsp", "--help"][..],
         &["explain", "--help"][..],
         &["rules", "--help"][..],
         &["facts", "--help"][..],

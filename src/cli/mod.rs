@@ -228,9 +228,13 @@ pub struct ReportArgs {
 
 #[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]
 pub enum FormatArg {
+    /// annotated source lines with the numbers and a fix, for a terminal
     Human,
+    /// one line per finding and one per help (file:line:col), for editors
     Compact,
+    /// the findings, facts and summary as one JSON document
     Json,
+    /// SARIF 2.1.0, for code-scanning services
     Sarif,
     /// the page of `armature report`, on standard output
     Html,
