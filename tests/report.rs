@@ -173,6 +173,10 @@ fn each_plotted_peak_is_the_fact_it_illustrates() {
     let (_, page) = report(&["samples"], &out);
     let doc = Html::parse_document(&page);
     let mut checked = 0;
+    let (mut want, mut seen) = (
+        std::collections::BTreeSet::new(),
+        std::collections::BTreeSet::new(),
+    );
     for file in [
         "samples/alarm_relay_faulty.drive",
         "samples/conveyor_driver.drive",
@@ -202,6 +206,14 @@ fn each_plotted_peak_is_the_fact_it_illustrates() {
             if !in_file {
                 continue;
             }
+            let sid = section.map(|s| attr(&s, "id")).unwrap_or("");
+            want.insert((sid, sw));
+            // a second turn-off (the switched one beside a worse reset)
+            // illustrates no fact
+            if p.value().attr("data-fact-v-peak").is_none() {
+                continue;
+            }
+            seen.insert((sid, sw));
             let peak = num(attr(&p, "data-peak"));
             assert!(
                 (peak - v).abs() <= 1e-9 * v.abs(),
@@ -237,6 +249,7 @@ fn each_plotted_peak_is_the_fact_it_illustrates() {
         }
     }
     assert!(checked >= 4, "{checked} plots checked");
+    assert_eq!(want, seen, "a switch with a v_peak fact has no plot of it");
     let _ = std::fs::remove_dir_all(&d);
 }
 
@@ -454,5 +467,66 @@ fn a_real_browser_lays_the_report_out_with_visible_drawings_and_plots() {
     let (_, _, ink) = inked(&shot);
     assert!(ink > 20_000, "the section looks blank: {ink}");
     eprintln!("screenshots in {}", shots.display());
+    let _ = std::fs::remove_dir_all(&d);
+}
+
+/// The dead time a bridge leg's plot measures on the simulated gate
+/// drives moves one for one with the `deadtime` the netlist programs.
+#[test]
+fn a_leg_plot_measures_the_programmed_dead_time() {
+    let d = scratch("deadtime");
+    let src = std::fs::read_to_string("tests/fixtures/rules/dead-time-short/bad.drive")
+        .unwrap_or_default()
+        .replace("../../parts.yaml", "../../tests/fixtures/parts.yaml");
+    let mut measured = Vec::new();
+    for (tag, dt) in [("1us", 1e-6), ("2us", 2e-6)] {
+        // a supply above the derated rating gives findings on the leg
+        // without the short dead time
+        let text = src
+            .replace("deadtime 20ns", &format!("deadtime {tag}"))
+            .lines()
+            .map(|l| {
+                if l.starts_with("rail VBAT") {
+                    "rail VBAT 12V max 26V"
+                } else {
+                    l
+                }
+            })
+            .collect::<Vec<_>>()
+            .join("\n");
+        let dir = Path::new("target").join(format!("deadtime-{}", std::process::id()));
+        let _ = std::fs::create_dir_all(&dir);
+        let f = dir.join(format!("leg-{tag}.drive"));
+        let _ = std::fs::write(&f, &text);
+        let out = d.join(format!("{tag}.html"));
+        let (_, page) = report(&[f.to_str().unwrap_or("")], &out);
+        let _ = std::fs::remove_dir_all(&dir);
+        let doc = Html::parse_document(&page);
+        let t: Vec<f64> = doc
+            .select(&sel(
+                "svg.plot[data-switch=P5][data-edge=turn-off] g.dead-time",
+            ))
+            .map(|g| num(attr(&g, "data-t")))
+            .collect();
+        assert!(!t.is_empty(), "{tag}: no dead time drawn");
+        let legend: String = doc
+            .select(&sel("svg.plot[data-switch=P5][data-edge=turn-off]"))
+            .flat_map(|s| s.text())
+            .collect();
+        assert!(
+            legend.contains("N5"),
+            "the other switch's gate is not named"
+        );
+        assert!(
+            t.iter().all(|x| *x > 0.0 && *x < dt),
+            "{tag}: {t:?} (the slower turn-off eats into it)"
+        );
+        measured.push(t[0]);
+    }
+    let step = measured[1] - measured[0];
+    assert!(
+        (step - 1e-6).abs() < 20e-9,
+        "1 µs more programmed, {step:e} s more measured"
+    );
     let _ = std::fs::remove_dir_all(&d);
 }

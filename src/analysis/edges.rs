@@ -42,6 +42,10 @@ pub struct Wave {
     pub il: Vec<f64>,
     /// Current of the part that carries most of the freewheel charge.
     pub iclamp: Vec<f64>,
+    /// The other switch of a bridge leg (local part) and its gate drive
+    /// over the same run (its own polarity); empty outside a leg.
+    pub partner: Option<u32>,
+    pub vgs_partner: Vec<f64>,
 }
 
 /// What a simulated edge pair gives.
@@ -138,6 +142,8 @@ struct Probe {
     km: usize,
     pol: f64,
     main_load: Option<usize>,
+    /// The main element and polarity of the leg's other switch.
+    partner: Option<(usize, f64)>,
 }
 
 impl Probe {
@@ -146,15 +152,40 @@ impl Probe {
         self.pol * (s.v(e.t[0]) - s.v(*e.t.last().unwrap_or(&e.t[0])))
     }
     fn vgs(&self, nl: &Netlist, s: &Step) -> f64 {
-        let e = &nl.elems[self.km];
-        match e.t.as_slice() {
-            [_, g, src] => self.pol * (s.v(*g) - s.v(*src)),
-            _ => 0.0,
-        }
+        gate_drive(nl, self.km, self.pol, s)
     }
     fn ich(&self, s: &Step) -> f64 {
         self.pol * s.currents(self.km)[0]
     }
+}
+
+/// The gate (base) drive of a switch's main element, device polarity.
+fn gate_drive(nl: &Netlist, km: usize, pol: f64, s: &Step) -> f64 {
+    match nl.elems[km].t.as_slice() {
+        [_, g, src] => pol * (s.v(*g) - s.v(*src)),
+        _ => 0.0,
+    }
+}
+
+/// The other switch of a bridge leg: a switch whose drain or source
+/// (collector or emitter) is this one's, on a node that is not fixed.
+fn leg_partner(nl: &Netlist, km: usize) -> Option<(usize, f64)> {
+    let e = nl.elems.get(km)?;
+    let ends = [*e.t.first()?, *e.t.last()?];
+    nl.elems.iter().enumerate().find_map(|(k, o)| {
+        if k == km || o.role != Role::Main || o.part == e.part {
+            return None;
+        }
+        let pol = match &o.dev {
+            Dev::Mos(m) => m.polarity,
+            Dev::Bjt(q) => q.polarity,
+            _ => return None,
+        };
+        let theirs = [*o.t.first()?, *o.t.last()?];
+        ends.iter()
+            .any(|n| matches!(n, Nd::Var(_)) && theirs.contains(n))
+            .then_some((k, pol))
+    })
 }
 
 /// Element power (absorbed) and the magnitude of its current.
@@ -418,17 +449,22 @@ pub fn simulate_many(spec: &EdgeSpec, switches: &[u32]) -> Vec<EdgeResult> {
         let il0 = load
             .and_then(|k| loads.iter().position(|&x| x == k))
             .map_or(0.0, |i| load_i0[i]);
+        let partner = leg_partner(nl, km);
         watches.push(Watch {
             sw,
             probe: Probe {
                 km,
                 pol,
                 main_load: load,
+                partner,
             },
             i0,
             il0,
             body,
-            wave: Wave::default(),
+            wave: Wave {
+                partner: partner.map(|(k, _)| nl.elems[k].part),
+                ..Wave::default()
+            },
             let_go: None,
         });
         results.push(None);
@@ -485,6 +521,9 @@ pub fn simulate_many(spec: &EdgeSpec, switches: &[u32]) -> Vec<EdgeResult> {
             w.wave.t.push(s.t);
             w.wave.vds.push(w.probe.vds(nl, s));
             w.wave.vgs.push(w.probe.vgs(nl, s));
+            if let Some((k2, pol2)) = w.probe.partner {
+                w.wave.vgs_partner.push(gate_drive(nl, k2, pol2, s));
+            }
             w.wave.id.push(ich);
             w.wave
                 .il
@@ -733,6 +772,9 @@ fn turn_on(spec: &EdgeSpec, mut on_sim: Sim, watches: &[Watch], outs: &mut [Edge
             wv.t.push(s.t - t_start);
             wv.vds.push(vds);
             wv.vgs.push(w.probe.vgs(nl, s));
+            if let Some((k2, pol2)) = w.probe.partner {
+                wv.vgs_partner.push(gate_drive(nl, k2, pol2, s));
+            }
             wv.id.push(ich);
             wv.il
                 .push(w.probe.main_load.map_or(0.0, |k| s.currents(k)[0]));
@@ -775,6 +817,7 @@ fn turn_on(spec: &EdgeSpec, mut on_sim: Sim, watches: &[Watch], outs: &mut [Edge
         res.e_on = (e_tot - res.e_rr).max(0.0);
         res.i_rr = i_rr.clone();
         w.iclamp = vec![0.0; w.t.len()];
+        w.partner = res.wave_off.partner;
         res.wave_on = w;
     }
 }

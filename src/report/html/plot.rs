@@ -24,6 +24,7 @@ const ILOAD: (&str, &str) = ("#0072B2", "");
 const ICH: (&str, &str) = ("#D55E00", "6 3");
 const ICLAMP: (&str, &str) = ("#009E73", "2 2");
 const VGS: (&str, &str) = ("#CC79A7", "");
+const VGS_PARTNER: (&str, &str) = ("#56B4E9", "5 2");
 const RATING: (&str, &str) = ("#D55E00", "8 4");
 const DERATED: (&str, &str) = ("#E69F00", "3 3");
 const CLAMP: (&str, &str) = ("#009E73", "9 3 2 3");
@@ -333,6 +334,35 @@ fn edge_time(p: &Plot, ts: &[f64]) -> f64 {
     (4.0 * t).max(20e-9)
 }
 
+/// The dead time between the two gates' half-swing crossings, drawn as a
+/// dimension line across the gate panel (an overlap when negative).
+fn dead_time_marker(out: &mut String, t: &Axis, g: &Axis, a: f64, b: f64, dt: f64) {
+    let (xa, xb) = (t.at(a.min(b)), t.at(a.max(b)));
+    let y = 0.5 * (g.px_lo + g.px_hi);
+    let word = if dt >= 0.0 {
+        "dead time"
+    } else {
+        "gate overlap"
+    };
+    let label = format!(
+        "{word} {} (simulated)",
+        format_si(dt.abs(), Dimension::Time)
+    );
+    let (tx, anchor) = if xb + 6.0 + 6.0 * label.len() as f64 <= t.px_hi {
+        (xb + 6.0, "start")
+    } else {
+        (xa - 6.0, "end")
+    };
+    let _ = write!(
+        out,
+        r##"<g class="dead-time" data-t="{dt:e}"><line x1="{xa:.1}" y1="{y0:.1}" x2="{xa:.1}" y2="{y1:.1}" stroke="#333" stroke-width="0.8"/><line x1="{xb:.1}" y1="{y0:.1}" x2="{xb:.1}" y2="{y1:.1}" stroke="#333" stroke-width="0.8"/><line x1="{xa:.1}" y1="{y:.1}" x2="{xb:.1}" y2="{y:.1}" stroke="#333" stroke-width="1.2"/><text x="{tx:.1}" y="{ty:.1}" font-size="10" text-anchor="{anchor}">{l}</text></g>"##,
+        y0 = y - 7.0,
+        y1 = y + 7.0,
+        ty = y + 3.5,
+        l = esc(&label),
+    );
+}
+
 /// The plot of one edge, with a text alternative.
 pub fn svg(p: &Plot, id: &str) -> String {
     let h1 = 170.0;
@@ -367,7 +397,7 @@ pub fn svg(p: &Plot, id: &str) -> String {
     let va = Axis::new(vlo, vhi, y1.0, y1.1);
     let (ilo, ihi) = range(&[&p.il, &p.id, &p.iclamp], &[]);
     let ia = Axis::new(ilo, ihi, y2.0, y2.1);
-    let (glo, ghi) = range(&[&p.vgs], &[]);
+    let (glo, ghi) = range(&[&p.vgs, &p.vgs_partner], &[]);
     let ga = Axis::new(glo, ghi, y3.0, y3.1);
     let title = format!(
         "{} {}{}: {}, currents and {} against time",
@@ -411,6 +441,14 @@ pub fn svg(p: &Plot, id: &str) -> String {
             desc,
             "; the clamp holds {}",
             format_si(c, Dimension::Voltage)
+        );
+    }
+    if let (Some(other), Some((a, b))) = (&p.partner, p.dead_time) {
+        let _ = write!(
+            desc,
+            "; {} with {other}: {}",
+            if b >= a { "dead time" } else { "gate overlap" },
+            format_si((b - a).abs(), Dimension::Time)
         );
     }
     let i_max = p.il.iter().fold(0.0f64, |m, v| m.max(v.abs()));
@@ -536,7 +574,31 @@ pub fn svg(p: &Plot, id: &str) -> String {
     // panel 3: gate
     frame(&mut out, &ta, &ga, "V", gname, tp, true);
     polyline(&mut out, &ta, &ga, &ts, &p.vgs, VGS, "trace v-gs");
-    legend(&mut out, W - R + 8.0, y3.1 + 8.0, &[(VGS, gname)]);
+    let partner_label = p.partner.as_deref().map(|o| format!("{gname} {o}"));
+    match &partner_label {
+        Some(l) if p.vgs_partner.len() == ts.len() => {
+            polyline(
+                &mut out,
+                &ta,
+                &ga,
+                &ts,
+                &p.vgs_partner,
+                VGS_PARTNER,
+                "trace v-gs-partner",
+            );
+            let own = format!("{gname} {}", p.switch);
+            legend(
+                &mut out,
+                W - R + 8.0,
+                y3.1 + 8.0,
+                &[(VGS, own.as_str()), (VGS_PARTNER, l.as_str())],
+            );
+        }
+        _ => legend(&mut out, W - R + 8.0, y3.1 + 8.0, &[(VGS, gname)]),
+    }
+    if let Some((a, b)) = p.dead_time {
+        dead_time_marker(&mut out, &ta, &ga, a - p.t_cmd, b - p.t_cmd, b - a);
+    }
     let _ = write!(
         out,
         r#"<text x="{x:.1}" y="{y:.1}" font-size="10.5" text-anchor="middle">{}</text>"#,

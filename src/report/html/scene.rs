@@ -70,6 +70,13 @@ pub struct Plot {
     pub id: Vec<f64>,
     pub il: Vec<f64>,
     pub iclamp: Vec<f64>,
+    /// The other switch of a bridge leg and its gate drive (same samples).
+    pub partner: Option<String>,
+    pub vgs_partner: Vec<f64>,
+    /// From the gate that turns off crossing half its swing to the other
+    /// crossing half of its own (s, wave time); the end before the start
+    /// is an overlap.
+    pub dead_time: Option<(f64, f64)>,
     /// A bipolar switch (V_CE, V_BE and I_C in the labels).
     pub bipolar: bool,
     /// The blocking rating and the derated limit (V).
@@ -497,15 +504,16 @@ fn scene(b: &Built, ix: &Ix, seeds: &[PartId], missing_path: bool) -> Scene {
 
 /// Indices to keep so that a waveform of `n` samples has at most
 /// `MAX_SAMPLES`: per bucket the first, the lowest and the highest of
-/// every trace, and always the peak of `vds`.
+/// V_DS, the load current and the gate drives, and always the peak of
+/// `vds`.
 fn keep(w: &crate::analysis::edges::Wave, peak: usize) -> Vec<usize> {
     let n = w.t.len();
     if n <= MAX_SAMPLES {
         return (0..n).collect();
     }
-    let buckets = MAX_SAMPLES / 5;
+    let buckets = MAX_SAMPLES / 9;
     let mut idx = Vec::with_capacity(MAX_SAMPLES + 2);
-    let traces: [&[f64]; 2] = [&w.vds, &w.il];
+    let traces: [&[f64]; 4] = [&w.vds, &w.il, &w.vgs, &w.vgs_partner];
     for k in 0..buckets {
         let lo = k * n / buckets;
         let hi = ((k + 1) * n / buckets).min(n);
@@ -573,6 +581,39 @@ fn plateau(w: &crate::analysis::edges::Wave) -> Option<f64> {
     v.get(v.len() / 2).copied()
 }
 
+/// When a gate drive moves from its level at the start of the run to its
+/// level at the end (`up` or down by more than 0.5 V) and first crosses
+/// the middle of the two, interpolated between samples. A gate that ends
+/// where it started (a Miller bump, a static drive) has no such time.
+fn mid_crossing(t: &[f64], v: &[f64], up: bool) -> Option<f64> {
+    let (a, b) = (*v.first()?, *v.last()?);
+    let rise = (b - a) * if up { 1.0 } else { -1.0 };
+    if rise.is_nan() || rise <= 0.5 {
+        return None;
+    }
+    let mid = 0.5 * (a + b);
+    let side = |x: f64| if up { x >= mid } else { x <= mid };
+    let k = v.windows(2).position(|w| !side(w[0]) && side(w[1]))?;
+    let (t0, t1, v0, v1) = (*t.get(k)?, *t.get(k + 1)?, v[k], v[k + 1]);
+    Some(if v1 == v0 {
+        t1
+    } else {
+        t0 + (mid - v0) / (v1 - v0) * (t1 - t0)
+    })
+}
+
+/// The dead time of a bridge leg's edge, measured on the simulated gate
+/// drives: at a turn-off this switch's gate falls and then the other's
+/// rises; at a turn-on the other's falls and then this one's rises.
+fn dead_time(w: &crate::analysis::edges::Wave, turn_on: bool) -> Option<(f64, f64)> {
+    if w.vgs_partner.len() != w.t.len() {
+        return None;
+    }
+    let own = mid_crossing(&w.t, &w.vgs, turn_on)?;
+    let other = mid_crossing(&w.t, &w.vgs_partner, !turn_on)?;
+    Some(if turn_on { (other, own) } else { (own, other) })
+}
+
 fn plots_of(b: &Built, ix: &Ix, sw: PartId) -> Vec<Plot> {
     let c = &b.circuit;
     let a = &b.analysis;
@@ -594,6 +635,7 @@ fn plots_of(b: &Built, ix: &Ix, sw: PartId) -> Vec<Plot> {
     };
     let mut out = Vec::new();
     let mk = |w: &crate::analysis::edges::Wave,
+              group: usize,
               edge: &'static str,
               load: Option<PartId>,
               t_cmd: f64,
@@ -612,6 +654,17 @@ fn plots_of(b: &Built, ix: &Ix, sw: PartId) -> Vec<Plot> {
             id: pick(&w.id, &idx),
             il: pick(&w.il, &idx),
             iclamp: pick(&w.iclamp, &idx),
+            partner: w
+                .partner
+                .and_then(|l| a.groups.get(group)?.parts.get(l as usize).copied())
+                .and_then(|p| c.parts.get(p))
+                .map(|p| p.reference.clone()),
+            vgs_partner: if w.vgs_partner.len() == w.t.len() {
+                pick(&w.vgs_partner, &idx)
+            } else {
+                Vec::new()
+            },
+            dead_time: dead_time(w, edge == "turn-on"),
             bipolar: part.kind.is_bipolar(),
             rating,
             derated,
@@ -622,7 +675,14 @@ fn plots_of(b: &Built, ix: &Ix, sw: PartId) -> Vec<Plot> {
             peak_fact,
         }
     };
-    if let Some(t) = ix.worst(b, sw)
+    // the switched (PWM) edge, motors running
+    let toggle = ix
+        .turnoffs(b, sw)
+        .filter(|t| t.kind == EdgeKind::Toggle)
+        .find(|t| t.mode == Mode::Run)
+        .or_else(|| ix.turnoffs(b, sw).find(|t| t.kind == EdgeKind::Toggle));
+    let worst = ix.worst(b, sw);
+    if let Some(t) = worst
         && let Some(r) = edge_of(t)
         && !r.wave_off.t.is_empty()
     {
@@ -631,20 +691,23 @@ fn plots_of(b: &Built, ix: &Ix, sw: PartId) -> Vec<Plot> {
         } else {
             "turn-off"
         };
-        out.push(mk(&r.wave_off, edge, t.load, r.t_cmd, fact));
+        out.push(mk(&r.wave_off, t.group, edge, t.load, r.t_cmd, fact));
     }
-    // the turn-on of a switched (PWM) edge, motors running
-    let on = ix
-        .turnoffs(b, sw)
-        .filter(|t| t.kind == EdgeKind::Toggle)
-        .find(|t| t.mode == Mode::Run)
-        .or_else(|| ix.turnoffs(b, sw).find(|t| t.kind == EdgeKind::Toggle));
-    if let Some(t) = on
+    // when the worst edge is a reset, the switched turn-off too (its
+    // timing against the other switch of a leg is what dead time is about)
+    if let Some(t) = toggle
+        && worst.is_some_and(|w| w.kind != EdgeKind::Toggle)
+        && let Some(r) = edge_of(t)
+        && !r.wave_off.t.is_empty()
+    {
+        out.push(mk(&r.wave_off, t.group, "turn-off", t.load, r.t_cmd, None));
+    }
+    if let Some(t) = toggle
         && let Some(r) = edge_of(t)
         && !r.wave_on.t.is_empty()
     {
         let t0 = r.wave_on.t.first().copied().unwrap_or(0.0);
-        out.push(mk(&r.wave_on, "turn-on", t.load, t0, None));
+        out.push(mk(&r.wave_on, t.group, "turn-on", t.load, t0, None));
     }
     out
 }
