@@ -136,3 +136,67 @@ fn decay_time_and_clamp_energy_follow_the_closed_forms() {
     let e_r0 = 0.5 * l * i0 * i0 * v_peak / v_loop;
     assert!(e_clamp < e_r0, "{e_clamp} vs {e_r0}");
 }
+
+#[path = "../benches/gen.rs"]
+#[allow(dead_code)] // the benches use the rest of the generator
+mod generator;
+
+#[test]
+fn the_benchmark_board_reused_gives_the_facts_it_gives_solved_apart() {
+    // every kind of channel, on every pin of shared controllers, with
+    // values that repeat: the reuse of identical groups (which leaves the
+    // controller's other pins out of a group's key) must change nothing
+    let dir = std::env::temp_dir().join(format!("armature-reuse-{}", std::process::id()));
+    let _ = std::fs::create_dir_all(&dir);
+    let lib = dir.join("gen-parts.yaml");
+    let _ = std::fs::write(&lib, generator::LIBRARY);
+    let path = dir.join("board.drive");
+    let text = generator::netlist(700, "gen-parts.yaml");
+    let f = SourceFile::new("board.drive", &path, text);
+    let opts = Options::default();
+    let b = match build(&f, &opts, &LibraryCache::default()) {
+        Ok(b) => b,
+        Err(e) => panic!("{:?}", e.iter().map(|x| &x.message).collect::<Vec<_>>()),
+    };
+    let _ = std::fs::remove_dir_all(&dir);
+    let apart = armature::analysis::analyze_with(&b.circuit, &b.graph, &b.settings, false);
+    assert_eq!(apart.distinct_groups, b.analysis.groups.len());
+    assert!(
+        b.analysis.distinct_groups * 2 < b.analysis.groups.len(),
+        "{} distinct of {}: the channels should share solutions",
+        b.analysis.distinct_groups,
+        b.analysis.groups.len()
+    );
+    let dump = |a: &armature::analysis::Analysis| {
+        a.facts
+            .parts
+            .iter()
+            .map(|pf| {
+                pf.facts
+                    .iter()
+                    .map(|f| {
+                        (
+                            f.name,
+                            f.value.to_bits(),
+                            f.note.as_deref().map(str::to_string),
+                        )
+                    })
+                    .collect::<Vec<_>>()
+            })
+            .collect::<Vec<_>>()
+    };
+    let (x, y) = (dump(&b.analysis), dump(&apart));
+    assert_eq!(x.len(), y.len());
+    let mut facts = 0;
+    for (p, (a, b2)) in x.iter().zip(&y).enumerate() {
+        assert_eq!(a, b2, "part {}", b.circuit.parts[p].reference);
+        facts += a.len();
+    }
+    assert!(facts > 5000, "{facts} facts compared");
+    assert_eq!(b.analysis.legs.len(), apart.legs.len());
+    assert_eq!(b.analysis.injections.len(), apart.injections.len());
+    assert_eq!(
+        b.analysis.floating_inputs.len(),
+        apart.floating_inputs.len()
+    );
+}

@@ -49,7 +49,10 @@ pub fn key(c: &Circuit, grp: &Group, drives: &[PinDrive]) -> Vec<u64> {
                 None => k.push(NONE),
             }
         }
-        k.push(p.pins.len() as u64);
+        // a controller's pins that reach nothing of the group (another
+        // group's pins) build nothing in it and stay out of the key, so
+        // that the same channel on another pin of the controller shares it
+        let mut pins: Vec<(u64, u64)> = Vec::with_capacity(p.pins.len());
         for pin in &p.pins {
             // which pin: its place in the kind's list, or for a controller
             // its place among the group's pins (a supply pin by its role)
@@ -75,13 +78,21 @@ pub fn key(c: &Circuit, grp: &Group, drives: &[PinDrive]) -> Vec<u64> {
                     None => 0,
                 },
             };
-            k.push(which);
-            k.push(match local(pin.net) {
+            let at = match local(pin.net) {
                 Some(i) => i as u64,
                 // a rail or ground by its identity: its corners come with it
                 None if c.net(pin.net).is_fixed() => (1 << 40) | pin.net as u64,
                 None => NONE - 1,
-            });
+            };
+            if matches!(p.kind.pins(), PinSpec::Any) && which == 0 && at == NONE - 1 {
+                continue;
+            }
+            pins.push((which, at));
+        }
+        k.push(pins.len() as u64);
+        for (which, at) in pins {
+            k.push(which);
+            k.push(at);
         }
     }
     for d in drives {
