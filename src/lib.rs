@@ -23,6 +23,7 @@ pub mod finding;
 pub mod graph;
 pub mod lsp;
 pub mod model;
+pub mod progress;
 pub mod report;
 pub mod settings;
 pub mod source;
@@ -179,6 +180,7 @@ fn build_limited(
     cache: &LibraryCache,
     max_parts: usize,
 ) -> Result<Built, Vec<Finding>> {
+    progress::announce(&file.name, progress::Stage::Read);
     // The file is read in two passes over its lines: first the lines that
     // every part depends on (rails, grounds, libraries), then the rest in
     // blocks, each parsed and elaborated and then dropped, so that the
@@ -255,6 +257,7 @@ fn build_limited(
         return Err(errors);
     }
     let graph = graph::CircuitGraph::build(&circuit);
+    progress::announce(&file.name, progress::Stage::Analyse);
     let analysis = analysis::analyze(&circuit, &graph, &settings);
     // warnings found while parsing (malformed suppressions) travel along
     let mut built = Built {
@@ -280,9 +283,10 @@ pub fn check_source_with(
     cache: &LibraryCache,
     extra: Vec<Finding>,
 ) -> FileResult {
-    match build(&file, opts, cache) {
+    let result = match build(&file, opts, cache) {
         Err(findings) => FileResult::failed(file, findings, opts),
         Ok(mut b) => {
+            progress::announce(&file.name, progress::Stage::Check);
             let mut findings = std::mem::take(&mut b.analysis.early);
             findings.extend(extra);
             let ctx = checks::Ctx {
@@ -312,7 +316,9 @@ pub fn check_source_with(
                 scenes,
             }
         }
-    }
+    };
+    progress::announce(&result.file.name, progress::Stage::Done);
+    result
 }
 
 /// Check a netlist given as a string (tests, benches, embedding).

@@ -486,3 +486,65 @@ fn compact_help_follows_each_finding_as_a_note_line() {
     }
     assert_eq!(i, lines.len(), "no other lines");
 }
+
+#[path = "../benches/gen.rs"]
+#[allow(dead_code)] // the benches use the rest of the generator
+mod generator;
+
+/// Run `armature ARGS` under a pseudo-terminal (util-linux `script`), as a
+/// user at a terminal would; what the terminal showed, or None without
+/// `script` (a failure under `CI`).
+fn on_a_terminal(args: &str, dir: &std::path::Path) -> Option<String> {
+    let exe = env!("CARGO_BIN_EXE_armature");
+    let log = dir.join("typescript");
+    let out = std::process::Command::new("script")
+        .arg("-qec")
+        .arg(format!("{exe} {args} > /dev/null"))
+        .arg(&log)
+        .current_dir(dir)
+        .env("ARMATURE_PROGRESS_DELAY_MS", "0")
+        .output();
+    match out {
+        Ok(_) => std::fs::read(&log)
+            .ok()
+            .map(|b| String::from_utf8_lossy(&b).into_owned()),
+        Err(e) => {
+            assert!(
+                std::env::var_os("CI").is_none(),
+                "`script` (util-linux) is needed under CI: {e}"
+            );
+            eprintln!("skipped: no `script` to give the check a terminal");
+            None
+        }
+    }
+}
+
+#[test]
+fn progress_bar_on_a_terminal_only_and_never_in_machine_formats() {
+    let dir = tempdir();
+    let _ = std::fs::write(dir.join("gen-parts.yaml"), generator::LIBRARY);
+    let _ = std::fs::write(
+        dir.join("board.drive"),
+        generator::netlist(300, "gen-parts.yaml"),
+    );
+    let Some(human) = on_a_terminal("check board.drive --max-findings 1", &dir) else {
+        return;
+    };
+    assert!(
+        human.contains("stages") && human.contains("board.drive"),
+        "no bar on a terminal: {human}"
+    );
+    let Some(json) = on_a_terminal("check board.drive --format json", &dir) else {
+        return;
+    };
+    assert!(!json.contains("stages"), "a bar in JSON output: {json}");
+    // piped: nothing but the findings
+    let o = armature()
+        .current_dir(&dir)
+        .env("ARMATURE_PROGRESS_DELAY_MS", "0")
+        .args(["check", "board.drive", "--max-findings", "1"])
+        .output();
+    let err = o.map(|o| String::from_utf8_lossy(&o.stderr).into_owned());
+    assert!(err.is_ok_and(|e| !e.contains("stages")));
+    let _ = std::fs::remove_dir_all(&dir);
+}

@@ -690,6 +690,11 @@ fn check(a: CheckArgs, to: Option<&Path>) -> i32 {
             profile(a.common.config.as_deref(), &a.common),
         ));
     }
+    // a bar on a terminal for a human, never in a machine format
+    let bar = (std::io::stderr().is_terminal()
+        && (to.is_some() || a.format == FormatArg::Human)
+        && !assigned.is_empty())
+    .then(|| progress_bar(assigned.len()));
     let mut results: Vec<FileResult> = assigned
         .par_iter()
         .filter(|(_, i)| profiles[*i].1.errors.is_empty())
@@ -733,12 +738,21 @@ fn check(a: CheckArgs, to: Option<&Path>) -> i32 {
         }
     };
     if let Some(path) = to {
+        if let Some(b) = &bar {
+            b.set_message("writing the report");
+        }
         let page = report::html::page(&results);
+        if let Some(b) = bar {
+            b.finish_and_clear();
+        }
         if let Err(e) = std::fs::write(path, page) {
             eprintln!("error: cannot write `{}`: {e}", path.display());
             return 2;
         }
         return crate::exit_code(&results, fail_on);
+    }
+    if let Some(b) = bar {
+        b.finish_and_clear();
     }
     let stdout = std::io::stdout();
     let mut out = std::io::BufWriter::new(stdout.lock());
@@ -753,6 +767,50 @@ fn check(a: CheckArgs, to: Option<&Path>) -> i32 {
     let _ = emit(&mut out, &results, format, color, a.max_findings, &team);
     let _ = out.flush();
     crate::exit_code(&results, fail_on)
+}
+
+/// A progress bar on standard error by stage (three steps a file: read,
+/// analysed, checked), drawn only once the check has run for a second
+/// (`ARMATURE_PROGRESS_DELAY_MS` sets another delay), so that short runs
+/// never flash one.
+fn progress_bar(files: usize) -> indicatif::ProgressBar {
+    use crate::progress::{Stage, set_sink};
+    use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
+    let bar = ProgressBar::with_draw_target(Some(3 * files as u64), ProgressDrawTarget::hidden());
+    if let Ok(style) = ProgressStyle::with_template(
+        "{spinner} {elapsed:>4} [{bar:32}] {pos}/{len} stages · {wide_msg}",
+    ) {
+        bar.set_style(style.progress_chars("=> "));
+    }
+    let sink = bar.clone();
+    set_sink(Box::new(move |file, stage| {
+        let shown = crate::trust::escape(file);
+        match stage {
+            Stage::Read => sink.set_message(format!("reading {shown}")),
+            Stage::Analyse => {
+                sink.inc(1);
+                sink.set_message(format!("solving {shown}"));
+            }
+            Stage::Check => {
+                sink.inc(1);
+                sink.set_message(format!("checking {shown}"));
+            }
+            Stage::Done => sink.inc(1),
+        }
+    }));
+    let delay = std::env::var("ARMATURE_PROGRESS_DELAY_MS")
+        .ok()
+        .and_then(|v| v.parse().ok())
+        .unwrap_or(1000u64);
+    let shown = bar.clone();
+    std::thread::spawn(move || {
+        std::thread::sleep(std::time::Duration::from_millis(delay));
+        if !shown.is_finished() {
+            shown.set_draw_target(ProgressDrawTarget::stderr());
+            shown.enable_steady_tick(std::time::Duration::from_millis(120));
+        }
+    });
+    bar
 }
 
 /// The configuration files in force, each once.
