@@ -82,7 +82,10 @@ fn rule_name(rule: Rule) -> &'static str {
         Rule::pin_entry => "a pin",
         Rule::pin_list => "a pin list in parentheses",
         Rule::primary => "a value",
-        Rule::part_stmt => "a part (like `resistor R1 (A, B) 10k`)",
+        Rule::part_stmt | Rule::part_stmt_known | Rule::part_fields | Rule::part_line => {
+            "a part (like `resistor R1 (A, B) 10k`)"
+        }
+        Rule::drive_line => "a `drive` statement",
         Rule::statement => "a statement",
         Rule::rule_id => "a rule id",
         Rule::rule_ids => "rule ids",
@@ -319,7 +322,20 @@ fn parse_line<'a>(
         return None;
     }
     let line_no = file.line_index(base);
-    match NetlistParser::parse(Rule::line, raw) {
+    // the entry rule by the first word; on an error the general rule
+    // again, for the message that names every alternative
+    let t = raw.trim_start_matches([' ', '\t', '\r', '\u{FEFF}']);
+    let entry = match Lines::first_word(t) {
+        "" => Rule::line,
+        "drive" => Rule::drive_line,
+        "design" | "library" | "ambient" | "rail" | "ground" => Rule::line,
+        _ => Rule::part_line,
+    };
+    let parsed = match NetlistParser::parse(entry, raw) {
+        Err(_) if entry != Rule::line => NetlistParser::parse(Rule::line, raw),
+        r => r,
+    };
+    match parsed {
         Ok(mut pairs) => {
             let line = pairs.next()?;
             lower_line(&mut lx, line, line_no, sups)
@@ -475,7 +491,7 @@ fn lower_statement<'a>(lx: &mut Lower<'a, '_>, p: Pair<Rule>) -> Option<Statemen
         Rule::rail_stmt => lower_rail_stmt(lx, p),
         Rule::ground_stmt => lower_ground_stmt(lx, p),
         Rule::drive_stmt => lower_drive_stmt(lx, p),
-        Rule::part_stmt => lower_part_stmt(lx, p),
+        Rule::part_stmt | Rule::part_stmt_known => lower_part_stmt(lx, p),
         _ => None,
     }
 }
