@@ -80,6 +80,19 @@ fn stages(path: &Path, team: &[Arc<armature::team::TeamRule>]) {
     let a = analysis::analyze(&circuit, &g, &settings);
     let t_an = ms(t);
     let m_an = rss_mib();
+    // the same analysis solving every group apart (no reuse of identical
+    // groups), on boards small enough for it to finish in a minute
+    if circuit.parts.len() <= 200_000 {
+        let t = Instant::now();
+        let apart = analysis::analyze_with(&circuit, &g, &settings, false);
+        println!(
+            "  analysis with reuse {t_an:.0} ms ({} of {} groups solved); without reuse {:.0} ms ({} solved)",
+            a.distinct_groups,
+            a.groups.len(),
+            ms(t),
+            apart.distinct_groups
+        );
+    }
     let ctx = checks::Ctx {
         circuit: &circuit,
         graph: &g,
@@ -131,6 +144,39 @@ fn stages(path: &Path, team: &[Arc<armature::team::TeamRule>]) {
         findings.len(),
         json.len(),
         floor
+    );
+}
+
+/// A 200-part board against `armature --version` (the process start,
+/// the allocator and the argument parser): best and median of 21 runs
+/// each, interleaved.
+fn small_board(exe: &Path, dir: &Path) {
+    let n = generator::channels_for(200);
+    let path = dir.join("gen-200.drive");
+    let text = generator::netlist(n, "gen-parts.yaml");
+    let parts = generator::count_parts(&text);
+    let _ = std::fs::write(&path, text);
+    let (mut check, mut version) = (Vec::new(), Vec::new());
+    for _ in 0..21 {
+        let t = Instant::now();
+        let _ = std::process::Command::new(exe)
+            .args(["check", path.to_str().unwrap_or(""), "--format", "json"])
+            .output();
+        check.push(ms(t));
+        let t = Instant::now();
+        let _ = std::process::Command::new(exe).arg("--version").output();
+        version.push(ms(t));
+    }
+    check.sort_by(f64::total_cmp);
+    version.sort_by(f64::total_cmp);
+    println!(
+        "{parts}-part board ({n} channels): check best {:.1} ms, median {:.1} ms; --version best {:.1} ms, median {:.1} ms; above --version {:.1} ms (best), {:.1} ms (median)",
+        check[0],
+        check[10],
+        version[0],
+        version[10],
+        check[0] - version[0],
+        check[10] - version[10]
     );
 }
 
@@ -216,6 +262,9 @@ fn main() {
             peak_rss_child_kib() as f64 / 1024.0,
             best / floor.max(0.001)
         );
+    }
+    if sizes.contains(&200) || (render_n == 0 && args.is_empty()) {
+        small_board(&exe, &dir);
     }
     if render_n > 0 {
         // one big file with `render_n` findings: single-pin nets

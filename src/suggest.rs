@@ -56,8 +56,21 @@ pub fn distance_within(a: &[char], b: &[char], k: usize) -> Option<usize> {
         return None;
     }
     let big = k + 1;
-    let mut prev: Vec<usize> = (0..=b.len()).map(|j| j.min(big)).collect();
-    let mut cur = vec![big; b.len() + 1];
+    // rows on the stack for names up to MAX_WORD (all an index holds)
+    let (mut prev_buf, mut cur_buf) = ([0usize; MAX_WORD + 1], [0usize; MAX_WORD + 1]);
+    let (mut prev_heap, mut cur_heap);
+    let (prev, cur): (&mut [usize], &mut [usize]) = if b.len() <= MAX_WORD {
+        (&mut prev_buf[..=b.len()], &mut cur_buf[..=b.len()])
+    } else {
+        prev_heap = vec![0usize; b.len() + 1];
+        cur_heap = vec![0usize; b.len() + 1];
+        (&mut prev_heap[..], &mut cur_heap[..])
+    };
+    for (j, x) in prev.iter_mut().enumerate() {
+        *x = j.min(big);
+    }
+    cur.iter_mut().for_each(|x| *x = big);
+    let (mut prev, mut cur) = (prev, cur);
     for (i, ca) in a.iter().enumerate() {
         let lo = (i + 1).saturating_sub(k);
         let hi = (i + 1 + k).min(b.len());
@@ -77,7 +90,8 @@ pub fn distance_within(a: &[char], b: &[char], k: usize) -> Option<usize> {
         }
         std::mem::swap(&mut prev, &mut cur);
     }
-    (prev[b.len()] <= k).then_some(prev[b.len()])
+    let d = prev.get(b.len()).copied().unwrap_or(big);
+    (d <= k).then_some(d)
 }
 
 /// Suggestions from a large set of names in time that does not grow with
@@ -91,9 +105,35 @@ pub fn distance_within(a: &[char], b: &[char], k: usize) -> Option<usize> {
 pub struct Index {
     names: Vec<String>,
     chars: Vec<Vec<char>>,
+    /// Which characters each name holds, one bit per character class
+    /// (see [`signature`]).
+    sigs: Vec<u64>,
     /// Lowercase name: the names of that spelling, first in order first.
-    lower: std::collections::HashMap<String, Vec<u32>>,
+    /// A name's lowercase spelling (hashed, keyed SipHash): the first two
+    /// names of that spelling in order, enough to skip the word itself.
+    lower: std::collections::HashMap<u64, [u32; 2]>,
+    hasher: std::collections::hash_map::RandomState,
     pairs: std::collections::HashMap<(char, char), Vec<u32>>,
+}
+
+/// The hash of a word's lowercase spelling, without building it.
+fn lower_hash(h: &std::collections::hash_map::RandomState, w: &str) -> u64 {
+    use std::hash::{BuildHasher, Hasher};
+    let mut s = h.build_hasher();
+    for c in w.chars().flat_map(char::to_lowercase) {
+        s.write_u32(c as u32);
+    }
+    s.finish()
+}
+
+/// A set of the characters of a word, hashed into 64 bits. One edit
+/// changes at most two bits (a substitution drops one character and adds
+/// another), so two words whose sets differ in more than 2k bits are more
+/// than k edits apart: a test far cheaper than the distance.
+fn signature(w: &[char]) -> u64 {
+    w.iter().fold(0u64, |s, &c| {
+        s | 1u64 << ((c as u32).wrapping_mul(0x9E37_79B9) >> 26)
+    })
 }
 
 fn pairs_of(w: &[char]) -> Vec<(char, char)> {
@@ -112,14 +152,21 @@ impl Index {
         names.sort_unstable();
         names.dedup();
         let chars: Vec<Vec<char>> = names.iter().map(|n| n.chars().collect()).collect();
-        let mut lower = std::collections::HashMap::new();
+        let sigs: Vec<u64> = chars.iter().map(|c| signature(c)).collect();
+        let hasher = std::collections::hash_map::RandomState::new();
+        let mut lower: std::collections::HashMap<u64, [u32; 2]> =
+            std::collections::HashMap::with_capacity(names.len());
         let mut pairs: std::collections::HashMap<(char, char), Vec<u32>> =
             std::collections::HashMap::new();
         for (i, (n, c)) in names.iter().zip(&chars).enumerate() {
             lower
-                .entry(n.to_lowercase())
-                .or_insert_with(Vec::new)
-                .push(i as u32);
+                .entry(lower_hash(&hasher, n))
+                .and_modify(|v| {
+                    if v[1] == u32::MAX {
+                        v[1] = i as u32;
+                    }
+                })
+                .or_insert([i as u32, u32::MAX]);
             if c.len() <= MAX_WORD {
                 for p in pairs_of(c) {
                     pairs.entry(p).or_default().push(i as u32);
@@ -129,7 +176,9 @@ impl Index {
         Index {
             names,
             chars,
+            sigs,
             lower,
+            hasher,
             pairs,
         }
     }
@@ -141,17 +190,19 @@ impl Index {
         if w.len() > MAX_WORD {
             return None;
         }
+        let lw = word.to_lowercase();
         if let Some(n) = self
             .lower
-            .get(&word.to_lowercase())
+            .get(&lower_hash(&self.hasher, word))
             .into_iter()
             .flatten()
             .filter_map(|&i| self.names.get(i as usize))
-            .find(|n| n.as_str() != word)
+            .find(|n| n.as_str() != word && n.to_lowercase() == lw)
         {
             return Some(n);
         }
         let limit = (w.len() / 3).max(1);
+        let sig = signature(&w);
         let mut grams: Vec<(usize, (char, char))> = pairs_of(&w)
             .into_iter()
             .map(|p| (self.pairs.get(&p).map_or(0, Vec::len), p))
@@ -172,7 +223,8 @@ impl Index {
                     return;
                 }
                 *compared += 1;
-                if distance_within(&w, c, k).is_some() {
+                let apart = (self.sigs.get(i as usize).copied().unwrap_or(0) ^ sig).count_ones();
+                if apart as usize <= 2 * k && distance_within(&w, c, k).is_some() {
                     // names are sorted: the smallest index is first in order
                     if best.is_none_or(|b| i < b) {
                         *best = Some(i);

@@ -22,6 +22,11 @@ pub enum Kind {
     Connector,
 }
 
+/// The switch kinds (as [`Kind::is_switch`]).
+pub const SWITCHES: &[Kind] = &[Kind::Nmos, Kind::Pmos, Kind::Npn, Kind::Pnp];
+/// The diode kinds (as [`Kind::is_diode`]).
+pub const DIODES: &[Kind] = &[Kind::Diode, Kind::Zener, Kind::Tvs];
+
 /// What a key holds.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum KeyType {

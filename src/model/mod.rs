@@ -261,9 +261,36 @@ pub struct Circuit {
     pub complement: HashMap<(PartId, usize), (PartId, String)>,
     /// Rails and grounds with their worst-case (maximum) potential.
     pub fixed_nets: Vec<(NetId, f64)>,
+    /// The parts of each kind, in order (built on first use by
+    /// [`Circuit::parts_of`]; the parts do not change after elaboration).
+    pub kind_index: std::sync::OnceLock<Vec<Vec<PartId>>>,
 }
 
 impl Circuit {
+    /// The parts of the given kinds, in order: a rule that reads a few
+    /// kinds walks a dense list of them instead of every part.
+    pub fn parts_of<'s>(&'s self, kinds: &[Kind]) -> impl Iterator<Item = (PartId, &'s Part)> + 's {
+        let index = self.kind_index.get_or_init(|| {
+            let mut v: Vec<Vec<PartId>> = vec![Vec::new(); Kind::ALL.len()];
+            for (i, p) in self.parts.iter().enumerate() {
+                if let Some(l) = v.get_mut(p.kind as usize) {
+                    l.push(i);
+                }
+            }
+            v
+        });
+        let mut ids: Vec<PartId> = kinds
+            .iter()
+            .filter_map(|k| index.get(*k as usize))
+            .flatten()
+            .copied()
+            .collect();
+        if kinds.len() > 1 {
+            ids.sort_unstable();
+        }
+        ids.into_iter()
+            .filter_map(move |i| self.parts.get(i).map(|p| (i, p)))
+    }
     pub fn net(&self, id: NetId) -> &Net {
         &self.nets[id]
     }
@@ -735,6 +762,7 @@ impl<'a> Elab<'a> {
                 drive_index: HashMap::with_capacity(n_drives),
                 complement: HashMap::new(),
                 fixed_nets: Vec::new(),
+                kind_index: std::sync::OnceLock::new(),
             },
         }
     }

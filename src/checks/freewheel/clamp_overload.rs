@@ -69,10 +69,7 @@ pub fn detect(ctx: &Ctx) -> Vec<Overload> {
     let d = ctx.settings.derating.power;
     let f = &ctx.analysis.facts;
     let mut out = Vec::new();
-    for (i, p) in ctx.circuit.parts.iter().enumerate() {
-        if !matches!(p.kind, Kind::Zener | Kind::Tvs) {
-            continue;
-        }
+    for (i, p) in ctx.circuit.parts_of(&[Kind::Zener, Kind::Tvs]) {
         let e_clamp = f.value(i, "e_clamp").unwrap_or(0.0);
         match f.value(i, "p_clamp") {
             Some(pw) => {

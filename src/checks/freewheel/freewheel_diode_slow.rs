@@ -56,8 +56,8 @@ pub struct Slow {
 
 pub fn detect(ctx: &Ctx) -> Vec<Slow> {
     let mut out = Vec::new();
-    for (i, p) in ctx.circuit.parts.iter().enumerate() {
-        if p.kind != crate::model::Kind::Diode || p.word("type") == Some("schottky") {
+    for (i, p) in ctx.circuit.parts_of(&[crate::model::Kind::Diode]) {
+        if p.word("type") == Some("schottky") {
             continue;
         }
         let Some(f) = ctx.analysis.facts.value(i, "f_pwm").filter(|f| *f > 0.0) else {

@@ -1,6 +1,7 @@
 use crate::checks::common::*;
 use crate::checks::{Ctx, Rule, RuleMeta};
 use crate::finding::{Finding, Severity};
+use crate::model::kinds::DIODES;
 
 pub static META: RuleMeta = RuleMeta {
     id: "freewheel-diode-underrated",
@@ -58,10 +59,7 @@ pub fn detect(ctx: &Ctx) -> Vec<Short> {
     let d = &ctx.settings.derating;
     let f = &ctx.analysis.facts;
     let mut out = Vec::new();
-    for (i, p) in ctx.circuit.parts.iter().enumerate() {
-        if !p.kind.is_diode() {
-            continue;
-        }
+    for (i, p) in ctx.circuit.parts_of(DIODES) {
         let Some(ifw) = f.value(i, "i_fw") else {
             continue;
         };

@@ -46,10 +46,7 @@ pub const RULE: Rule = Rule { meta: &META, check };
 pub fn detect(ctx: &Ctx) -> Vec<(usize, usize, usize)> {
     let c = ctx.circuit;
     let mut out = Vec::new();
-    for (i, p) in c.parts.iter().enumerate() {
-        if !p.kind.is_bipolar() {
-            continue;
-        }
+    for (i, p) in c.parts_of(&[Kind::Npn, Kind::Pnp]) {
         let Some(b) = p.net_of("b") else { continue };
         let driver = c.net(b).conns.iter().find(|(q, pin)| {
             let qp = c.part(*q);

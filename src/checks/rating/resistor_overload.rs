@@ -55,10 +55,7 @@ pub const RULE: Rule = Rule { meta: &META, check };
 pub fn detect(ctx: &Ctx) -> Vec<Over> {
     let d = ctx.settings.derating.power;
     let mut out = Vec::new();
-    for (i, p) in ctx.circuit.parts.iter().enumerate() {
-        if p.kind != Kind::Resistor {
-            continue;
-        }
+    for (i, p) in ctx.circuit.parts_of(&[Kind::Resistor]) {
         let Some(pw) = ctx.analysis.facts.value(i, "p_loss") else {
             continue;
         };

@@ -1,6 +1,7 @@
 use crate::checks::common::*;
 use crate::checks::{Ctx, Rule, RuleMeta};
 use crate::finding::{Finding, Severity};
+use crate::model::kinds::SWITCHES;
 
 pub static META: RuleMeta = RuleMeta {
     id: "switch-overcurrent",
@@ -61,10 +62,7 @@ pub fn detect(ctx: &Ctx) -> Vec<Overcurrent> {
         }
     }
     let mut out = Vec::new();
-    for (i, p) in ctx.circuit.parts.iter().enumerate() {
-        if !p.kind.is_switch() {
-            continue;
-        }
+    for (i, p) in ctx.circuit.parts_of(SWITCHES) {
         let Some(i_on) = ctx.analysis.facts.value(i, "i_on") else {
             continue;
         };

@@ -1,6 +1,7 @@
 use crate::checks::common::*;
 use crate::checks::{Ctx, Rule, RuleMeta};
 use crate::finding::{Finding, Severity};
+use crate::model::kinds::SWITCHES;
 
 pub static META: RuleMeta = RuleMeta {
     id: "switch-overheat",
@@ -82,10 +83,7 @@ pub fn detect(ctx: &Ctx) -> Vec<Overheat> {
     let d = &ctx.settings.derating;
     let f_ = &ctx.analysis.facts;
     let mut out = Vec::new();
-    for (i, p) in ctx.circuit.parts.iter().enumerate() {
-        if !p.kind.is_switch() {
-            continue;
-        }
+    for (i, p) in ctx.circuit.parts_of(SWITCHES) {
         let (Some(tj), Some(p_loss)) = (f_.value(i, "tj"), f_.value(i, "p_loss")) else {
             continue;
         };

@@ -1,6 +1,7 @@
 use crate::checks::common::*;
 use crate::checks::{Ctx, Rule, RuleMeta};
 use crate::finding::{Finding, Severity};
+use crate::model::kinds::SWITCHES;
 
 pub static META: RuleMeta = RuleMeta {
     id: "switch-overvoltage",
@@ -51,7 +52,7 @@ pub fn detect(ctx: &Ctx) -> Vec<Overvoltage> {
     let d = &ctx.settings.derating;
     let a_ = ctx.analysis;
     let mut out = Vec::new();
-    for (i, p) in ctx.circuit.parts.iter().enumerate() {
+    for (i, p) in ctx.circuit.parts_of(SWITCHES) {
         let Some((m, _, r)) = p.kind.switch_pins() else {
             continue;
         };
