@@ -183,6 +183,53 @@ pub struct Analysis {
     pub injections: Vec<(usize, PinInjection)>,
     /// How many distinct groups were solved (the rest reused a solution).
     pub distinct_groups: usize,
+    /// The turn-offs by switch and by the parts on their paths, built on
+    /// first use (`turnoffs` does not change after the analysis).
+    turnoff_index: std::sync::OnceLock<TurnOffIndex>,
+}
+
+#[derive(Debug, Default)]
+struct TurnOffIndex {
+    by_switch: HashMap<PartId, Vec<u32>>,
+    by_path: HashMap<PartId, Vec<u32>>,
+}
+
+impl Analysis {
+    fn turnoff_index(&self) -> &TurnOffIndex {
+        self.turnoff_index.get_or_init(|| {
+            let mut ix = TurnOffIndex::default();
+            for (i, t) in self.turnoffs.iter().enumerate() {
+                ix.by_switch.entry(t.switch).or_default().push(i as u32);
+                for &(p, _) in &t.path {
+                    let l = ix.by_path.entry(p).or_default();
+                    if l.last() != Some(&(i as u32)) {
+                        l.push(i as u32);
+                    }
+                }
+            }
+            ix
+        })
+    }
+
+    /// The turn-offs of a switch, in order.
+    pub fn turnoffs_of(&self, switch: PartId) -> impl Iterator<Item = &TurnOff> {
+        self.turnoff_index()
+            .by_switch
+            .get(&switch)
+            .into_iter()
+            .flatten()
+            .filter_map(|&i| self.turnoffs.get(i as usize))
+    }
+
+    /// The turn-offs whose current path runs through a part, in order.
+    pub fn turnoffs_through(&self, part: PartId) -> impl Iterator<Item = &TurnOff> {
+        self.turnoff_index()
+            .by_path
+            .get(&part)
+            .into_iter()
+            .flatten()
+            .filter_map(|&i| self.turnoffs.get(i as usize))
+    }
 }
 
 impl std::fmt::Debug for Group {

@@ -81,11 +81,7 @@ pub fn detect(ctx: &Ctx) -> Vec<Slow> {
 /// The switch whose turn-off the diode freewheels, and the recovery
 /// power at its turn-on (`e_rr·f_pwm`).
 pub fn recovery_cost(ctx: &Ctx, diode: usize) -> Option<(usize, f64)> {
-    let t = ctx
-        .analysis
-        .turnoffs
-        .iter()
-        .find(|t| t.path.iter().any(|(p, _)| *p == diode))?;
+    let t = ctx.analysis.turnoffs_through(diode).next()?;
     Some((t.switch, ctx.analysis.facts.value(t.switch, "p_rr")?))
 }
 

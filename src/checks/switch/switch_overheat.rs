@@ -153,9 +153,8 @@ fn check(ctx: &Ctx) -> Vec<Finding> {
             };
             let load = ctx
                 .analysis
-                .turnoffs
-                .iter()
-                .find(|t| t.switch == o.switch)
+                .turnoffs_of(o.switch)
+                .next()
                 .and_then(|t| t.load);
             let (why, help) = match o.cause {
                 Cause::Avalanche => (
