@@ -270,7 +270,10 @@ fn main() {
                         .args(["check", path.to_str().unwrap_or(""), "--format", "json"])
                         .output();
                     let dt = ms(t);
-                    (if out.is_ok() { dt } else { f64::NAN }, peak_rss_child_kib())
+                    (
+                        if out.is_ok() { dt } else { f64::NAN },
+                        peak_rss_child_kib(),
+                    )
                 }
             };
             if dt.is_finite() {

@@ -188,10 +188,10 @@ fn leg_partner(nl: &Netlist, km: usize) -> Option<(usize, f64)> {
     })
 }
 
-/// Element power (absorbed) and the magnitude of its current.
-fn power(nl: &Netlist, k: usize, s: &Step) -> (f64, f64) {
+/// Element power (absorbed) and the magnitude of its current, from its
+/// terminal currents.
+fn power_of(nl: &Netlist, k: usize, s: &Step, i: &[f64; 4]) -> (f64, f64) {
     let e = &nl.elems[k];
-    let i = s.currents(k);
     let p: f64 = e.t.iter().zip(i.iter()).map(|(&n, &c)| s.v(n) * c).sum();
     (p, i[0].abs())
 }
@@ -247,7 +247,10 @@ impl Acc {
             }
         }
         for k in 0..nl.elems.len() {
-            let (p, q) = power(nl, k, s);
+            // the element's terminal currents once: its power, its current
+            // and what it draws from the rails all come from them
+            let i = s.currents(k);
+            let (p, q) = power_of(nl, k, s, &i);
             self.i_pk[k] = self.i_pk[k].max(q);
             if let Some(t0) = self.last_t {
                 let dt = s.t - t0;
@@ -267,7 +270,6 @@ impl Acc {
             }
             self.last_p[k] = p;
             self.last_q[k] = q;
-            let i = s.currents(k);
             for (&n, &c) in nl.elems[k].t.iter().zip(i.iter()) {
                 if let Nd::Fix(j) = n
                     && let Some(r) = rail.get_mut(j as usize)
