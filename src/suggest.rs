@@ -103,17 +103,56 @@ pub fn distance_within(a: &[char], b: &[char], k: usize) -> Option<usize> {
 /// that finds a name wins (ties: the name first in order). A name that
 /// differs only in case wins outright.
 pub struct Index {
-    names: Vec<String>,
-    chars: Vec<Vec<char>>,
+    /// The names, sorted and deduplicated, one after another in `text`
+    /// (`ends[i]` is where name `i` ends), and their characters likewise
+    /// in `chars` (one allocation each instead of two per name).
+    text: String,
+    ends: Vec<u32>,
+    /// The names of each length in characters, in order.
+    by_len: Vec<Vec<u32>>,
+    chars: Vec<char>,
+    char_ends: Vec<u32>,
     /// Which characters each name holds, one bit per character class
     /// (see [`signature`]).
     sigs: Vec<u64>,
-    /// Lowercase name: the names of that spelling, first in order first.
     /// A name's lowercase spelling (hashed, keyed SipHash): the first two
     /// names of that spelling in order, enough to skip the word itself.
     lower: std::collections::HashMap<u64, [u32; 2]>,
     hasher: std::collections::hash_map::RandomState,
-    pairs: std::collections::HashMap<(char, char), Vec<u32>>,
+    pairs: Pairs,
+}
+
+/// The names holding each pair of characters: a dense table for ASCII
+/// pairs (no hashing on the common path), a map for the rest.
+#[derive(Default)]
+struct Pairs {
+    ascii: Vec<Vec<u32>>,
+    other: std::collections::HashMap<(char, char), Vec<u32>>,
+}
+
+impl Pairs {
+    fn slot((a, b): (char, char)) -> Option<usize> {
+        (a.is_ascii() && b.is_ascii()).then(|| a as usize * 128 + b as usize)
+    }
+    fn get(&self, p: &(char, char)) -> Option<&Vec<u32>> {
+        match Self::slot(*p) {
+            Some(i) => self.ascii.get(i),
+            None => self.other.get(p),
+        }
+    }
+    fn push(&mut self, p: (char, char), name: u32) {
+        match Self::slot(p) {
+            Some(i) => {
+                if self.ascii.is_empty() {
+                    self.ascii = vec![Vec::new(); 128 * 128];
+                }
+                if let Some(l) = self.ascii.get_mut(i) {
+                    l.push(name);
+                }
+            }
+            None => self.other.entry(p).or_default().push(name),
+        }
+    }
 }
 
 /// The hash of a word's lowercase spelling, without building it.
@@ -148,17 +187,33 @@ impl Index {
     where
         I: IntoIterator<Item = &'a str>,
     {
-        let mut names: Vec<String> = names.into_iter().map(str::to_string).collect();
+        let mut names: Vec<&str> = names.into_iter().collect();
         names.sort_unstable();
         names.dedup();
-        let chars: Vec<Vec<char>> = names.iter().map(|n| n.chars().collect()).collect();
-        let sigs: Vec<u64> = chars.iter().map(|c| signature(c)).collect();
+        let mut text = String::with_capacity(names.iter().map(|n| n.len()).sum());
+        let mut ends = Vec::with_capacity(names.len());
+        let mut chars: Vec<char> = Vec::with_capacity(text.capacity());
+        let mut char_ends = Vec::with_capacity(names.len());
+        let mut sigs = Vec::with_capacity(names.len());
+        for n in &names {
+            text.push_str(n);
+            ends.push(text.len() as u32);
+            let start = chars.len();
+            chars.extend(n.chars());
+            char_ends.push(chars.len() as u32);
+            sigs.push(signature(chars.get(start..).unwrap_or(&[])));
+        }
         let hasher = std::collections::hash_map::RandomState::new();
         let mut lower: std::collections::HashMap<u64, [u32; 2]> =
             std::collections::HashMap::with_capacity(names.len());
-        let mut pairs: std::collections::HashMap<(char, char), Vec<u32>> =
-            std::collections::HashMap::new();
-        for (i, (n, c)) in names.iter().zip(&chars).enumerate() {
+        let mut pairs = Pairs::default();
+        for (i, n) in names.iter().enumerate() {
+            let from = i
+                .checked_sub(1)
+                .and_then(|j| char_ends.get(j))
+                .map_or(0, |&e| e as usize);
+            let to = char_ends.get(i).map_or(from, |&e| e as usize);
+            let c = chars.get(from..to).unwrap_or(&[]);
             lower
                 .entry(lower_hash(&hasher, n))
                 .and_modify(|v| {
@@ -169,18 +224,53 @@ impl Index {
                 .or_insert([i as u32, u32::MAX]);
             if c.len() <= MAX_WORD {
                 for p in pairs_of(c) {
-                    pairs.entry(p).or_default().push(i as u32);
+                    pairs.push(p, i as u32);
                 }
             }
         }
+        let mut by_len: Vec<Vec<u32>> = Vec::new();
+        for i in 0..ends.len() {
+            let from = i
+                .checked_sub(1)
+                .and_then(|j| char_ends.get(j))
+                .map_or(0, |&e| e as usize);
+            let n = char_ends.get(i).map_or(from, |&e| e as usize) - from;
+            if by_len.len() <= n {
+                by_len.resize(n + 1, Vec::new());
+            }
+            if let Some(l) = by_len.get_mut(n) {
+                l.push(i as u32);
+            }
+        }
         Index {
-            names,
+            text,
+            ends,
+            by_len,
             chars,
+            char_ends,
             sigs,
             lower,
             hasher,
             pairs,
         }
+    }
+
+    /// Name `i`.
+    fn name(&self, i: usize) -> Option<&str> {
+        let start = match i.checked_sub(1) {
+            Some(j) => *self.ends.get(j)? as usize,
+            None => 0,
+        };
+        self.text.get(start..*self.ends.get(i)? as usize)
+    }
+
+    /// The characters of name `i`.
+    fn chars_of(&self, i: usize) -> Option<&[char]> {
+        let start = match i.checked_sub(1) {
+            Some(j) => *self.char_ends.get(j)? as usize,
+            None => 0,
+        };
+        self.chars.get(start..*self.char_ends.get(i)? as usize)
     }
 
     /// The closest name within a distance that scales with the length
@@ -196,8 +286,8 @@ impl Index {
             .get(&lower_hash(&self.hasher, word))
             .into_iter()
             .flatten()
-            .filter_map(|&i| self.names.get(i as usize))
-            .find(|n| n.as_str() != word && n.to_lowercase() == lw)
+            .filter_map(|&i| self.name(i as usize))
+            .find(|n| *n != word && n.to_lowercase() == lw)
         {
             return Some(n);
         }
@@ -211,15 +301,16 @@ impl Index {
         let mut compared = 0usize;
         for k in 1..=limit {
             let mut best: Option<u32> = None;
-            let mut seen = std::collections::HashSet::new();
+            // candidate indices (ours, not the input's): a fast set
+            let mut seen = crate::fasthash::FastSet::<u32>::default();
             let mut consider = |i: u32, best: &mut Option<u32>, compared: &mut usize| {
                 if !seen.insert(i) {
                     return;
                 }
-                let Some(c) = self.chars.get(i as usize) else {
+                let Some(c) = self.chars_of(i as usize) else {
                     return;
                 };
-                if self.names.get(i as usize).is_some_and(|n| n == word) {
+                if self.name(i as usize).is_some_and(|n| n == word) {
                     return;
                 }
                 *compared += 1;
@@ -232,14 +323,24 @@ impl Index {
                 }
             };
             if grams.len() <= 2 * k {
-                // too few pairs to filter: names of a near length
-                for (i, c) in self.chars.iter().enumerate() {
-                    if compared >= MAX_COMPARED {
-                        break;
+                // too few pairs to filter: names of a near length, in
+                // order (the lists of each length merged)
+                let lists: Vec<&[u32]> = (w.len().saturating_sub(k)..=w.len() + k)
+                    .filter_map(|n| self.by_len.get(n).map(Vec::as_slice))
+                    .collect();
+                let mut at = vec![0usize; lists.len()];
+                while compared < MAX_COMPARED {
+                    let next = lists
+                        .iter()
+                        .zip(&at)
+                        .enumerate()
+                        .filter_map(|(j, (l, &a))| l.get(a).map(|&i| (i, j)))
+                        .min();
+                    let Some((i, j)) = next else { break };
+                    if let Some(a) = at.get_mut(j) {
+                        *a += 1;
                     }
-                    if c.len().abs_diff(w.len()) <= k {
-                        consider(i as u32, &mut best, &mut compared);
-                    }
+                    consider(i, &mut best, &mut compared);
                 }
             } else {
                 'lists: for (_, p) in grams.iter().take(2 * k + 1) {
@@ -252,7 +353,7 @@ impl Index {
                 }
             }
             if let Some(b) = best {
-                return self.names.get(b as usize).map(String::as_str);
+                return self.name(b as usize);
             }
             if compared >= MAX_COMPARED {
                 return None;
