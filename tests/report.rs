@@ -523,6 +523,29 @@ fn a_leg_plot_measures_the_programmed_dead_time() {
         );
         measured.push(t[0]);
     }
+    // with 20 ns programmed the two switches overlap and the leg carries
+    // a shoot-through spike first: that is no clamping either
+    let out = d.join("20ns.html");
+    let (_, page) = report(&["tests/fixtures/rules/dead-time-short/bad.drive"], &out);
+    let doc = Html::parse_document(&page);
+    let overlap: Vec<f64> = doc
+        .select(&sel(
+            "svg.plot[data-switch=P5][data-edge=turn-off] g.dead-time",
+        ))
+        .map(|g| num(attr(&g, "data-t")))
+        .collect();
+    assert!(
+        overlap.iter().all(|t| *t < 0.0) && !overlap.is_empty(),
+        "{overlap:?}"
+    );
+    let clamps: Vec<f64> = doc
+        .select(&sel("svg.plot[data-switch=P5][data-edge=turn-off] g.clamp"))
+        .map(|g| num(attr(&g, "data-v")))
+        .collect();
+    assert!(
+        !clamps.is_empty() && clamps.iter().all(|v| (12.0..15.0).contains(v)),
+        "clamp levels {clamps:?} V (rail 12 V, at most 14.4 V)"
+    );
     let step = measured[1] - measured[0];
     assert!(
         (step - 1e-6).abs() < 20e-9,

@@ -560,19 +560,24 @@ fn pick(v: &[f64], idx: &[usize]) -> Vec<f64> {
         .collect()
 }
 
-/// The V_DS plateau while the clamp path carries more than half of its
-/// largest current (the level the clamp holds, as simulated).
+/// The V_DS the clamp path holds, as simulated: the median V_DS while the
+/// switch is off (its own current under a tenth of the load's largest)
+/// and the clamp path carries more than half of the load current. A
+/// moment when both conduct (a bridge leg's overlap) is no clamping.
 fn plateau(w: &crate::analysis::edges::Wave) -> Option<f64> {
-    let max = w.iclamp.iter().fold(0.0f64, |m, v| m.max(v.abs()));
-    if max <= 0.0 {
+    let il_max = w.il.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+    if il_max <= 0.0 {
         return None;
     }
     let mut v: Vec<f64> = w
         .iclamp
         .iter()
         .zip(&w.vds)
-        .filter(|(i, _)| i.abs() > 0.5 * max)
-        .map(|(_, v)| *v)
+        .zip(w.id.iter().zip(&w.il))
+        .filter(|((ic, _), (id, il))| {
+            ic.abs() > 0.5 * il.abs() && il.abs() > 0.05 * il_max && id.abs() < 0.1 * il_max
+        })
+        .map(|((_, v), _)| *v)
         .collect();
     if v.is_empty() {
         return None;
