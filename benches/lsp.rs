@@ -42,7 +42,12 @@ fn main() {
     let mut edits = Vec::new();
     let mut k = 0;
     for i in 0..9 {
-        let edited = text.replacen("G3) 100\n", &format!("G3) {}\n", 110 + 10 * i), 1);
+        // the gate pull-down of the first channel
+        let edited = text.replacen(
+            "(G0, GND) 47k\n",
+            &format!("(G0, GND) {}k\n", 51 + 4 * i),
+            1,
+        );
         assert_ne!(edited, text, "the edit changed nothing");
         let (t, kk) = check(&edited);
         edits.push(t);
