@@ -155,6 +155,15 @@ impl Pairs {
     }
 }
 
+/// Where entry `i` of an arena lies, from the entries' end offsets.
+fn entry(ends: &[u32], i: usize) -> Option<std::ops::Range<usize>> {
+    let start = match i.checked_sub(1) {
+        Some(j) => *ends.get(j)? as usize,
+        None => 0,
+    };
+    Some(start..*ends.get(i)? as usize)
+}
+
 /// The hash of a word's lowercase spelling, without building it.
 fn lower_hash(h: &std::collections::hash_map::RandomState, w: &str) -> u64 {
     use std::hash::{BuildHasher, Hasher};
@@ -207,13 +216,17 @@ impl Index {
         let mut lower: std::collections::HashMap<u64, [u32; 2]> =
             std::collections::HashMap::with_capacity(names.len());
         let mut pairs = Pairs::default();
+        let mut by_len: Vec<Vec<u32>> = Vec::new();
         for (i, n) in names.iter().enumerate() {
-            let from = i
-                .checked_sub(1)
-                .and_then(|j| char_ends.get(j))
-                .map_or(0, |&e| e as usize);
-            let to = char_ends.get(i).map_or(from, |&e| e as usize);
-            let c = chars.get(from..to).unwrap_or(&[]);
+            let c = entry(&char_ends, i)
+                .and_then(|r| chars.get(r))
+                .unwrap_or(&[]);
+            if by_len.len() <= c.len() {
+                by_len.resize(c.len() + 1, Vec::new());
+            }
+            if let Some(l) = by_len.get_mut(c.len()) {
+                l.push(i as u32);
+            }
             lower
                 .entry(lower_hash(&hasher, n))
                 .and_modify(|v| {
@@ -226,20 +239,6 @@ impl Index {
                 for p in pairs_of(c) {
                     pairs.push(p, i as u32);
                 }
-            }
-        }
-        let mut by_len: Vec<Vec<u32>> = Vec::new();
-        for i in 0..ends.len() {
-            let from = i
-                .checked_sub(1)
-                .and_then(|j| char_ends.get(j))
-                .map_or(0, |&e| e as usize);
-            let n = char_ends.get(i).map_or(from, |&e| e as usize) - from;
-            if by_len.len() <= n {
-                by_len.resize(n + 1, Vec::new());
-            }
-            if let Some(l) = by_len.get_mut(n) {
-                l.push(i as u32);
             }
         }
         Index {
@@ -257,20 +256,12 @@ impl Index {
 
     /// Name `i`.
     fn name(&self, i: usize) -> Option<&str> {
-        let start = match i.checked_sub(1) {
-            Some(j) => *self.ends.get(j)? as usize,
-            None => 0,
-        };
-        self.text.get(start..*self.ends.get(i)? as usize)
+        self.text.get(entry(&self.ends, i)?)
     }
 
     /// The characters of name `i`.
     fn chars_of(&self, i: usize) -> Option<&[char]> {
-        let start = match i.checked_sub(1) {
-            Some(j) => *self.char_ends.get(j)? as usize,
-            None => 0,
-        };
-        self.chars.get(start..*self.char_ends.get(i)? as usize)
+        self.chars.get(entry(&self.char_ends, i)?)
     }
 
     /// The closest name within a distance that scales with the length
