@@ -40,14 +40,6 @@ fn rss_mib() -> f64 {
         .unwrap_or(0.0)
 }
 
-/// GNU time, for a child's own peak memory (getrusage's figure for
-/// children can include the memory of this process at the fork).
-fn time_exe() -> Option<&'static str> {
-    std::path::Path::new("/usr/bin/time")
-        .exists()
-        .then_some("/usr/bin/time")
-}
-
 fn peak_rss_child_kib() -> i64 {
     // SAFETY: getrusage only writes into the struct we hand it.
     unsafe {
@@ -243,42 +235,31 @@ fn main() {
         // (single runs on a shared VM spread widely)
         let mut runs: Vec<f64> = Vec::new();
         let mut peak_kib = 0i64;
+        // GNU time, where there is one, reports the child's own peak
+        // resident set (getrusage's figure for children can include this
+        // process's memory at the fork)
+        let gnu_time = Path::new("/usr/bin/time").exists();
         for _ in 0..5 {
-            let t = Instant::now();
-            let (dt, kib) = match time_exe() {
-                // GNU time reports the child's own peak resident set
-                Some(time) => {
-                    let out = std::process::Command::new(time)
-                        .args(["-f", "%M"])
-                        .arg(&exe)
-                        .args(["check", path.to_str().unwrap_or(""), "--format", "json"])
-                        .output();
-                    let dt = ms(t);
-                    let kib = out
-                        .ok()
-                        .and_then(|o| {
-                            String::from_utf8_lossy(&o.stderr)
-                                .lines()
-                                .last()
-                                .and_then(|l| l.trim().parse::<i64>().ok())
-                        })
-                        .unwrap_or(-1);
-                    (dt, kib)
-                }
-                None => {
-                    let out = std::process::Command::new(&exe)
-                        .args(["check", path.to_str().unwrap_or(""), "--format", "json"])
-                        .output();
-                    let dt = ms(t);
-                    (
-                        if out.is_ok() { dt } else { f64::NAN },
-                        peak_rss_child_kib(),
-                    )
-                }
+            let mut cmd = if gnu_time {
+                let mut c = std::process::Command::new("/usr/bin/time");
+                c.args(["-f", "%M"]).arg(&exe);
+                c
+            } else {
+                std::process::Command::new(&exe)
             };
-            if dt.is_finite() {
-                runs.push(dt);
-            }
+            cmd.args(["check", path.to_str().unwrap_or(""), "--format", "json"]);
+            let t = Instant::now();
+            let Ok(out) = cmd.output() else { continue };
+            runs.push(ms(t));
+            let kib = if gnu_time {
+                String::from_utf8_lossy(&out.stderr)
+                    .lines()
+                    .last()
+                    .and_then(|l| l.trim().parse::<i64>().ok())
+                    .unwrap_or(-1)
+            } else {
+                peak_rss_child_kib()
+            };
             peak_kib = peak_kib.max(kib);
         }
         runs.sort_by(f64::total_cmp);

@@ -59,7 +59,7 @@ pub fn distance_within(a: &[char], b: &[char], k: usize) -> Option<usize> {
     // rows on the stack for names up to MAX_WORD (all an index holds)
     let (mut prev_buf, mut cur_buf) = ([0usize; MAX_WORD + 1], [0usize; MAX_WORD + 1]);
     let (mut prev_heap, mut cur_heap);
-    let (prev, cur): (&mut [usize], &mut [usize]) = if b.len() <= MAX_WORD {
+    let (mut prev, mut cur): (&mut [usize], &mut [usize]) = if b.len() <= MAX_WORD {
         (&mut prev_buf[..=b.len()], &mut cur_buf[..=b.len()])
     } else {
         prev_heap = vec![0usize; b.len() + 1];
@@ -70,7 +70,6 @@ pub fn distance_within(a: &[char], b: &[char], k: usize) -> Option<usize> {
         *x = j.min(big);
     }
     cur.iter_mut().for_each(|x| *x = big);
-    let (mut prev, mut cur) = (prev, cur);
     for (i, ca) in a.iter().enumerate() {
         let lo = (i + 1).saturating_sub(k);
         let hi = (i + 1 + k).min(b.len());
@@ -204,23 +203,19 @@ impl Index {
         let mut chars: Vec<char> = Vec::with_capacity(text.capacity());
         let mut char_ends = Vec::with_capacity(names.len());
         let mut sigs = Vec::with_capacity(names.len());
-        for n in &names {
-            text.push_str(n);
-            ends.push(text.len() as u32);
-            let start = chars.len();
-            chars.extend(n.chars());
-            char_ends.push(chars.len() as u32);
-            sigs.push(signature(chars.get(start..).unwrap_or(&[])));
-        }
         let hasher = std::collections::hash_map::RandomState::new();
         let mut lower: std::collections::HashMap<u64, [u32; 2]> =
             std::collections::HashMap::with_capacity(names.len());
         let mut pairs = Pairs::default();
         let mut by_len: Vec<Vec<u32>> = Vec::new();
         for (i, n) in names.iter().enumerate() {
-            let c = entry(&char_ends, i)
-                .and_then(|r| chars.get(r))
-                .unwrap_or(&[]);
+            text.push_str(n);
+            ends.push(text.len() as u32);
+            let start = chars.len();
+            chars.extend(n.chars());
+            char_ends.push(chars.len() as u32);
+            let c = chars.get(start..).unwrap_or(&[]);
+            sigs.push(signature(c));
             if by_len.len() <= c.len() {
                 by_len.resize(c.len() + 1, Vec::new());
             }

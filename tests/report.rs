@@ -470,6 +470,15 @@ fn a_real_browser_lays_the_report_out_with_visible_drawings_and_plots() {
     let _ = std::fs::remove_dir_all(&d);
 }
 
+/// An attribute of the marks `what` inside the plots of P5's turn-off.
+fn values(doc: &Html, what: &str, name: &str) -> Vec<f64> {
+    doc.select(&sel(&format!(
+        "svg.plot[data-switch=P5][data-edge=turn-off] {what}"
+    )))
+    .map(|g| num(attr(&g, name)))
+    .collect()
+}
+
 /// The dead time a bridge leg's plot measures on the simulated gate
 /// drives moves one for one with the `deadtime` the netlist programs.
 #[test]
@@ -502,13 +511,15 @@ fn a_leg_plot_measures_the_programmed_dead_time() {
         let (_, page) = report(&[f.to_str().unwrap_or("")], &out);
         let _ = std::fs::remove_dir_all(&dir);
         let doc = Html::parse_document(&page);
-        let t: Vec<f64> = doc
-            .select(&sel(
-                "svg.plot[data-switch=P5][data-edge=turn-off] g.dead-time",
-            ))
-            .map(|g| num(attr(&g, "data-t")))
-            .collect();
+        let t = values(&doc, "g.dead-time", "data-t");
         assert!(!t.is_empty(), "{tag}: no dead time drawn");
+        // the load freewheels through the other switch into the rail (12 V,
+        // at most 26 V here): the level held is above the rail
+        let clamps = values(&doc, "g.clamp", "data-v");
+        assert!(
+            clamps.iter().all(|v| (12.0..27.0).contains(v)),
+            "{tag}: clamp levels {clamps:?} V"
+        );
         let legend: String = doc
             .select(&sel("svg.plot[data-switch=P5][data-edge=turn-off]"))
             .flat_map(|s| s.text())
@@ -528,23 +539,15 @@ fn a_leg_plot_measures_the_programmed_dead_time() {
     let out = d.join("20ns.html");
     let (_, page) = report(&["tests/fixtures/rules/dead-time-short/bad.drive"], &out);
     let doc = Html::parse_document(&page);
-    let overlap: Vec<f64> = doc
-        .select(&sel(
-            "svg.plot[data-switch=P5][data-edge=turn-off] g.dead-time",
-        ))
-        .map(|g| num(attr(&g, "data-t")))
-        .collect();
+    let overlap = values(&doc, "g.dead-time", "data-t");
     assert!(
         overlap.iter().all(|t| *t < 0.0) && !overlap.is_empty(),
         "{overlap:?}"
     );
-    let clamps: Vec<f64> = doc
-        .select(&sel("svg.plot[data-switch=P5][data-edge=turn-off] g.clamp"))
-        .map(|g| num(attr(&g, "data-v")))
-        .collect();
+    let clamps = values(&doc, "g.clamp", "data-v");
     assert!(
         !clamps.is_empty() && clamps.iter().all(|v| (12.0..15.0).contains(v)),
-        "clamp levels {clamps:?} V (rail 12 V, at most 14.4 V)"
+        "clamp levels {clamps:?} V (rail 12 V, 14.4 V at its maximum, plus the other switch's drop)"
     );
     let step = measured[1] - measured[0];
     assert!(

@@ -263,7 +263,7 @@ pub struct Circuit {
     pub fixed_nets: Vec<(NetId, f64)>,
     /// The parts of each kind, in order (built on first use by
     /// [`Circuit::parts_of`]; the parts do not change after elaboration).
-    pub kind_index: std::sync::OnceLock<Vec<Vec<PartId>>>,
+    kind_index: std::sync::OnceLock<Vec<Vec<PartId>>>,
 }
 
 impl Circuit {

@@ -326,9 +326,8 @@ fn parse_line<'a>(
     // again, for the message that names every alternative
     let t = raw.trim_start_matches([' ', '\t', '\r', '\u{FEFF}']);
     let entry = match Lines::first_word(t) {
-        "" => Rule::line,
         "drive" => Rule::drive_line,
-        "design" | "library" | "ambient" | "rail" | "ground" => Rule::line,
+        "" | "design" | "library" | "ambient" | "rail" | "ground" => Rule::line,
         _ => Rule::part_line,
     };
     let parsed = match NetlistParser::parse(entry, raw) {

@@ -336,7 +336,8 @@ fn edge_time(p: &Plot, ts: &[f64]) -> f64 {
 
 /// The dead time between the two gates' half-swing crossings, drawn as a
 /// dimension line across the gate panel (an overlap when negative).
-fn dead_time_marker(out: &mut String, t: &Axis, g: &Axis, a: f64, b: f64, dt: f64) {
+fn dead_time_marker(out: &mut String, t: &Axis, g: &Axis, a: f64, b: f64) {
+    let dt = b - a;
     let (xa, xb) = (t.at(a.min(b)), t.at(a.max(b)));
     let y = 0.5 * (g.px_lo + g.px_hi);
     let word = if dt >= 0.0 {
@@ -597,7 +598,7 @@ pub fn svg(p: &Plot, id: &str) -> String {
         _ => legend(&mut out, W - R + 8.0, y3.1 + 8.0, &[(VGS, gname)]),
     }
     if let Some((a, b)) = p.dead_time {
-        dead_time_marker(&mut out, &ta, &ga, a - p.t_cmd, b - p.t_cmd, b - a);
+        dead_time_marker(&mut out, &ta, &ga, a - p.t_cmd, b - p.t_cmd);
     }
     let _ = write!(
         out,
